@@ -1,0 +1,61 @@
+"""The computational core: recording, methods, runs. numpy only at import.
+
+sympy and mpmath are imported lazily where symbolic or high-precision work
+is asked for. Nothing here imports matplotlib, ipywidgets or IPython, and
+nothing here prints.
+"""
+
+from ._methods import (
+    METHODS,
+    Bisection,
+    Halley,
+    Illinois,
+    InverseQuadratic,
+    Newton,
+    RegulaFalsi,
+    Secant,
+    Steffensen,
+    register,
+)
+from ._models import Chord, InverseParabola, LocalModel, Midpoint, Tangent, TangentHyperbola
+from ._problem import Problem, as_problem
+from ._record import EvalLog, Recorder, record
+from ._run import CONVERGED, STOP_REASONS, Failure, Run, Settings
+from ._session import Session, solve, start_session
+from ._step import Halt, Method, Start, Step
+
+__all__ = [
+    "CONVERGED",
+    "METHODS",
+    "STOP_REASONS",
+    "Bisection",
+    "Chord",
+    "EvalLog",
+    "Failure",
+    "Halley",
+    "Halt",
+    "Illinois",
+    "InverseParabola",
+    "InverseQuadratic",
+    "LocalModel",
+    "Method",
+    "Midpoint",
+    "Newton",
+    "Problem",
+    "Recorder",
+    "RegulaFalsi",
+    "Run",
+    "Secant",
+    "Session",
+    "Settings",
+    "Start",
+    "Steffensen",
+    "Step",
+    "Tangent",
+    "TangentHyperbola",
+    "as_problem",
+    "record",
+    "register",
+    "solve",
+    "start_session",
+]

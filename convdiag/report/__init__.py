@@ -1,0 +1,9 @@
+"""Display layer: text and HTML forms of results, figures and reports.
+
+Importing this package is light (no matplotlib): it registers the text and
+HTML formatters of core results. Figures import matplotlib when drawn.
+"""
+
+from . import _text as _text  # noqa: F401  (registers formatters)
+
+__all__: list[str] = []
