@@ -1,0 +1,59 @@
+"""The ``convdiag`` command line.
+
+Exit status: 0 when the run converged (or the command succeeded), 1 when
+it did not (the output says why), 2 for bad input.
+
+``EXPR`` is expression text, parsed by the safe expression language: it
+never runs code. ``--file path.py:function`` imports *your own* Python
+file, which runs that file's code, as ``python path.py`` would.
+
+Each subcommand lives in its own module with a ``register(subparsers)``
+function; add the module to ``_COMMANDS`` to add a subcommand.
+"""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import sys
+from collections.abc import Sequence
+
+from ..errors import ConvdiagError
+
+__all__ = ["build_parser", "main"]
+
+PROG = "convdiag"
+
+_COMMANDS = ("_run", "_demo")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    p = argparse.ArgumentParser(
+        prog=PROG,
+        description="See why a root-finder stalls, choose a start and method that work, and document it.",
+    )
+    sub = p.add_subparsers(dest="command", metavar="COMMAND")
+    for name in _COMMANDS:
+        importlib.import_module(f"{__name__}.{name}").register(sub)
+    return p
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if args.command is None:
+        parser.print_help()
+        return 2
+    check = getattr(args, "check", None)
+    if check is not None:
+        message = check(args)
+        if message:
+            parser.error(message)
+    try:
+        return int(args.func(args))
+    except ConvdiagError as exc:
+        print(f"{PROG}: error: {exc}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print(f"{PROG}: interrupted", file=sys.stderr)
+        return 1

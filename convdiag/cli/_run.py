@@ -1,0 +1,104 @@
+"""``convdiag run`` and ``convdiag methods``."""
+
+from __future__ import annotations
+
+import argparse
+import json
+from typing import Any
+
+from ._common import function_arg, load_file_function, parse_params
+
+# -- commands ----------------------------------------------------------------------
+def _cmd_run(args: argparse.Namespace) -> int:
+    from ..core import solve
+
+    f = load_file_function(args.file) if args.file else function_arg(args.expr)
+    fprime = function_arg(args.fprime) if args.fprime else None
+    start: Any = None
+    if args.start:
+        start = args.start if len(args.start) > 1 else args.start[0]
+    run = solve(
+        f,
+        args.method,
+        start=start,
+        bracket=args.bracket,
+        fprime=fprime,
+        params=parse_params(args.param),
+        xtol=args.tol if args.tol is not None else 0.0,
+        max_evals=args.max_evals,
+        max_time=args.max_time,
+        digits=args.digits,
+    )
+    if args.json:
+        out = run.to_dict()
+        if args.root is not None:
+            out["known_root"] = args.root
+        print(json.dumps(out, allow_nan=False))
+    else:
+        from ..report._text import run_text
+
+        print(run_text(run))
+        if args.root is not None:
+            err = abs(float(run.root) - args.root)
+            print(f"\n|root − given root {args.root:.17g}| = {err:.3g}")
+    return 0 if run.converged else 1
+
+
+def _check_run(args: argparse.Namespace) -> str:
+    if not (args.expr or args.file):
+        return "run needs EXPR or --file PATH.py:FUNCTION"
+    if args.expr and args.file:
+        return "give EXPR or --file, not both"
+    return ""
+
+
+def _cmd_methods(args: argparse.Namespace) -> int:
+    from ..core import METHODS
+    from ..report._text import text_table
+
+    rows = []
+    for name, m in METHODS.items():
+        rows.append(
+            [
+                name,
+                m.title,
+                f"{m.nominal_order:.3f}",
+                str(m.evals_per_step),
+                f"{m.efficiency_index():.3f}",
+                "bracket" if m.needs_bracket else f"{m.n_starts} start(s)",
+            ]
+        )
+    if args.json:
+        print(json.dumps([dict(zip(["name", "title", "order", "evals_per_step", "efficiency", "needs"], r)) for r in rows]))
+    else:
+        print(text_table(["name", "method", "order", "evals/step", "efficiency p^(1/d)", "needs"], rows, "llrrrl"))
+    return 0
+
+
+def register(sub: Any) -> None:
+    """Add ``run`` and ``methods`` to the subcommand parsers."""
+    from ..core import METHODS
+
+    r = sub.add_parser(
+        "run",
+        help="run one method on an expression or your function and print every iterate",
+        description="Run one method and print every iterate. EXPR is math text in x, e.g. 'x**3 - 2*x + 2'.",
+    )
+    r.add_argument("expr", nargs="?", metavar="EXPR", help="expression in x (or PATH.py:FUNCTION)")
+    r.add_argument("--file", metavar="PATH.py:FUNCTION", help="your own function, f(x) or f(x, **params)")
+    r.add_argument("--method", "-m", default="newton", choices=sorted(METHODS), help="method (default newton)")
+    r.add_argument("--start", type=float, action="append", metavar="X", help="starting point (repeat for more)")
+    r.add_argument("--bracket", type=float, nargs=2, metavar=("A", "B"), help="bracket with a sign change")
+    r.add_argument("--fprime", metavar="EXPR", help="derivative: expression or PATH.py:FUNCTION")
+    r.add_argument("--param", action="append", metavar="NAME=VALUE", help="model parameter (repeatable)")
+    r.add_argument("--tol", type=float, metavar="T", help="absolute tolerance on the step or bracket width")
+    r.add_argument("--max-evals", type=int, default=100, metavar="N", help="evaluation budget (default 100)")
+    r.add_argument("--max-time", type=float, metavar="S", help="wall-time budget in seconds")
+    r.add_argument("--digits", type=int, metavar="D", help="run in mpmath arithmetic with D digits")
+    r.add_argument("--root", type=float, metavar="R", help="the true root, if known")
+    r.add_argument("--json", action="store_true", help="print one JSON object")
+    r.set_defaults(func=_cmd_run, check=_check_run)
+
+    m = sub.add_parser("methods", help="list the methods with their order and efficiency")
+    m.add_argument("--json", action="store_true")
+    m.set_defaults(func=_cmd_methods)
