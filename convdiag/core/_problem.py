@@ -136,7 +136,8 @@ def _derivative_callable(d: Any, params: Mapping[str, float], variable: str, nam
         from ._expr import parse_expression
 
         e = parse_expression(d, variable=variable) if isinstance(d, str) else _expression_from_sympy(d, variable)
-        return e.numeric(params)  # type: ignore[no-any-return]
+        fn: Callable[[Any], Any] = e.numeric(params)
+        return fn
     if callable(d):
         return _bind(d, params)
     raise ParameterError.expected(name, "as_problem", "a callable, an expression string or a sympy expression", d)
@@ -222,7 +223,8 @@ def as_problem(
             f = f.with_params(**params)
         if fprime is not None or fprime2 is not None:
             raise ParameterError("Pass derivatives when the problem is first built, not to an existing Problem.")
-        return f
+        problem: Problem = f
+        return problem
     if isinstance(f, str) or _is_sympy(f):
         from ._expr import parse_expression
 

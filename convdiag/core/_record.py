@@ -162,7 +162,8 @@ class EvalLog:
 
     @property
     def ok(self) -> NDArray[np.bool_]:
-        return self.status == STATUS_OK
+        ok: NDArray[np.bool_] = self.status == STATUS_OK
+        return ok
 
     @property
     def total_seconds(self) -> float:
@@ -203,7 +204,7 @@ class EvalLog:
         def clean(a: NDArray[Any]) -> list[Any]:
             if a.dtype.kind == "f":
                 return [None if not math.isfinite(v) else float(v) for v in a.tolist()]
-            return a.tolist()
+            return list(a.tolist())
 
         d: dict[str, Any] = {name: clean(getattr(self, name)) for name in self._fields}
         d["notes"] = [{"row": r, "note": t} for r, t in self.notes]
@@ -400,8 +401,8 @@ class Recorder(functools.partial):  # type: ignore[type-arg]
         self._xy, self._ts = xy, ts
         self._t_origin = perf_counter() if _t_origin is None else _t_origin
         self._kind = F_AND_DF if returns_derivative else _kind
-        self.name = name or getattr(f, "__name__", type(f).__name__)
-        self.__wrapped__ = f
+        self.name = str(name or getattr(f, "__name__", type(f).__name__))
+        self.__wrapped__ = f  # type: ignore[attr-defined]
         self.fprime = None if fprime is None else Recorder(fprime, _kind=DF, _t_origin=self._t_origin)
         self.fprime2 = None if fprime2 is None else Recorder(fprime2, _kind=D2F, _t_origin=self._t_origin)
         return self

@@ -11,7 +11,7 @@ from __future__ import annotations
 import contextlib
 import math
 import numbers
-from collections.abc import Iterator, Sequence
+from collections.abc import Generator, Sequence
 from typing import Any
 
 from ..errors import BracketError, ParameterError
@@ -165,7 +165,7 @@ class Session:
         self.failure: Failure | None = None
         self.starts: list[Any] = list(starts)
         self.start_values: list[Any] = []
-        self._gen: Iterator[Step] | None = None
+        self._gen: Generator[Step, None, None] | None = None
         self._begin()
 
     # -- internals ------------------------------------------------------------
@@ -208,7 +208,7 @@ class Session:
         elif any(v == 0 for v in self.start_values):
             self._finish("exact-zero")
             return
-        self._gen = self.method.steps(self.ev, Start(tuple(self.starts), tuple(self.start_values)))
+        self._gen = self.method.steps(self.ev, Start(tuple(self.starts), tuple(self.start_values)))  # type: ignore[assignment]
 
     def _finish(self, reason: str) -> None:
         self.stop_reason = reason

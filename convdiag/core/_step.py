@@ -155,4 +155,4 @@ class Method:
 
 def same_sign(a: Number, b: Number) -> bool:
     """True when a and b are both > 0 or both < 0 (works for floats and mpmath)."""
-    return (a > 0 and b > 0) or (a < 0 and b < 0)
+    return bool((a > 0 and b > 0) or (a < 0 and b < 0))
