@@ -5,6 +5,7 @@ is asked for. Nothing here imports matplotlib, ipywidgets or IPython, and
 nothing here prints.
 """
 
+from ._brackets import BracketSearch, Candidate, find_brackets
 from ._methods import (
     METHODS,
     Bisection,
@@ -29,6 +30,8 @@ __all__ = [
     "METHODS",
     "STOP_REASONS",
     "Bisection",
+    "BracketSearch",
+    "Candidate",
     "Chord",
     "EvalLog",
     "Failure",
@@ -54,6 +57,7 @@ __all__ = [
     "Tangent",
     "TangentHyperbola",
     "as_problem",
+    "find_brackets",
     "record",
     "register",
     "solve",

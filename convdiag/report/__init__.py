@@ -4,6 +4,7 @@ Importing this package is light (no matplotlib): it registers the text and
 HTML formatters of core results. Figures import matplotlib when drawn.
 """
 
+from . import _brackets_text as _brackets_text  # noqa: F401
 from . import _text as _text  # noqa: F401  (registers formatters)
 
 __all__: list[str] = []
