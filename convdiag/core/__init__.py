@@ -5,6 +5,7 @@ is asked for. Nothing here imports matplotlib, ipywidgets or IPython, and
 nothing here prints.
 """
 
+from . import _hybrid as _hybrid  # registers the "hybrid" method
 from ._brackets import BracketSearch, Candidate, find_brackets
 from ._methods import (
     METHODS,

@@ -15,7 +15,7 @@ from typing import Any
 
 from ._evaluate import Evaluator
 from ._models import Chord, InverseParabola, Midpoint, Tangent, TangentHyperbola
-from ._step import Halt, Method, Start, Step, same_sign
+from ._step import Halt, Method, Start, Step, midpoint, same_sign
 
 __all__ = [
     "METHODS",
@@ -179,7 +179,7 @@ class Bisection(Method):
         (a, b), (fa, fb) = start.xs, start.fs
         while True:
             before = (a, b)
-            m = a + (b - a) / 2
+            m = midpoint(a, b)
             fm = ev.f(m)
             if same_sign(fm, fa):
                 a, fa = m, fm
@@ -208,7 +208,7 @@ class _FalsePosition(Method):
             model = Chord(a, ga, b, fb)
             x = b - fb * (b - a) / (fb - ga)
             if not (min(a, b) <= x <= max(a, b)):
-                x = a + (b - a) / 2  # only by rounding; keep the bracket
+                x = midpoint(a, b)  # only by rounding; keep the bracket
             fx = ev.f(x)
             reason = "took the line through the bracket ends"
             if same_sign(fx, fb):

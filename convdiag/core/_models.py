@@ -16,8 +16,10 @@ from numpy.typing import NDArray
 __all__ = [
     "Chord",
     "InverseParabola",
+    "InversePolynomial",
     "LocalModel",
     "Midpoint",
+    "PowerLaw",
     "Tangent",
     "TangentHyperbola",
     "model_from_dict",
@@ -164,10 +166,93 @@ class TangentHyperbola(_Model):
         return xs, ys
 
 
-LocalModel = Union[Tangent, Chord, InverseParabola, Midpoint, TangentHyperbola]
+def newton_coefficients(xs: Any, ys: Any) -> list[Any]:
+    """Divided differences of x over y (the Newton form of the inverse polynomial x = p(y))."""
+    dd = list(xs)
+    n = len(dd)
+    coef = [dd[0]]
+    for j in range(1, n):
+        for i in range(n - 1, j - 1, -1):
+            dd[i] = (dd[i] - dd[i - 1]) / (ys[i] - ys[i - j])
+        coef.append(dd[j])
+    return coef
+
+
+def newton_value(coef: Any, ys: Any, y: Any, n: int | None = None) -> tuple[Any, Any]:
+    """p(y) and p'(y) of the Newton form using its first ``n`` coefficients (Horner)."""
+    n = len(coef) if n is None else n
+    p = coef[n - 1]
+    dp = 0 * p
+    for j in range(n - 2, -1, -1):
+        dp = dp * (y - ys[j]) + p
+        p = p * (y - ys[j]) + coef[j]
+    return p, dp
+
+
+@dataclass(frozen=True)
+class InversePolynomial(_Model):
+    """The sideways polynomial x = p(y) through three or four points; its root is p(0).
+
+    ``shift`` is a deliberate step past that root which the method took (the hybrid steps
+    toward the bracket end with the larger |f| by the model's own error estimate, so that it
+    lands across the root); ``predict()`` is where the method evaluated: p(0) + shift.
+    """
+
+    kind: ClassVar[str] = "inverse-polynomial"
+    xs: tuple[float, ...]
+    ys: tuple[float, ...]
+    shift: float = 0.0
+
+    def x_of_y(self, y: Any) -> Any:
+        return newton_value(newton_coefficients(self.xs, self.ys), self.ys, y)[0]
+
+    def predict(self) -> float:
+        return self.x_of_y(0) + self.shift  # type: ignore[no-any-return]
+
+    def curve(self, lo: float, hi: float, n: int = 200) -> tuple[FloatArray, FloatArray]:
+        """Sample y over the span of the points (and 0), map through p; clip to [lo, hi]."""
+        yv = [_f(v) for v in self.ys]
+        ylo, yhi = min(yv + [0.0]), max(yv + [0.0])
+        pad = 0.15 * (yhi - ylo or 1.0)
+        ys = np.linspace(ylo - pad, yhi + pad, max(n, 3))
+        coef = newton_coefficients([_f(v) for v in self.xs], yv)
+        with np.errstate(all="ignore"):
+            xs = np.asarray(newton_value(coef, yv, ys)[0], dtype=float)
+        keep = (xs >= lo) & (xs <= hi)
+        return np.where(keep, xs, np.nan), np.where(keep, ys, np.nan)
+
+
+@dataclass(frozen=True)
+class PowerLaw(_Model):
+    """The local model of a root of multiplicity m: f(x) = sign·s(x-r)·(scale·|x - r|)^m.
+
+    s(t) is the sign of t. ``m`` need not be an integer (it is fitted); ``shift`` is a step
+    past the model's root that the method took (see :class:`InversePolynomial`), so
+    ``predict()`` is r + shift.
+    """
+
+    kind: ClassVar[str] = "power-law"
+    r: float
+    m: float
+    scale: float
+    sign: float
+    shift: float = 0.0
+
+    def predict(self) -> float:
+        return self.r + self.shift
+
+    def curve(self, lo: float, hi: float, n: int = 200) -> tuple[FloatArray, FloatArray]:
+        xs = np.linspace(lo, hi, max(n, 3))
+        d = xs - _f(self.r)
+        with np.errstate(all="ignore"):
+            ys = _f(self.sign) * np.sign(d) * (_f(self.scale) * np.abs(d)) ** _f(self.m)
+        return xs, ys
+
+
+LocalModel = Union[Tangent, Chord, InverseParabola, Midpoint, TangentHyperbola, InversePolynomial, PowerLaw]
 
 _BY_KIND: dict[str, type[Any]] = {
-    c.kind: c for c in (Tangent, Chord, InverseParabola, Midpoint, TangentHyperbola)
+    c.kind: c for c in (Tangent, Chord, InverseParabola, Midpoint, TangentHyperbola, InversePolynomial, PowerLaw)
 }
 
 

@@ -19,7 +19,7 @@ from ._evaluate import Arithmetic, Evaluator
 from ._methods import METHODS
 from ._problem import Problem, as_problem
 from ._run import CONVERGED, STOP_REASONS, Failure, Run, Settings
-from ._step import Halt, Method, Start, Step, same_sign
+from ._step import Halt, Method, Start, Step, midpoint, same_sign
 
 __all__ = ["Session", "solve", "start_session"]
 
@@ -118,7 +118,7 @@ def resolve_starts(
                 f"{m.name} needs a start: pass start=x0 (command line: --start X) or bracket=(a, b)."
             )
         a, b = br
-        starts = {1: [a + (b - a) / 2], 2: [a, b], 3: [a, b, a + (b - a) / 2]}[m.n_starts]
+        starts = {1: [midpoint(a, b)], 2: [a, b], 3: [a, b, midpoint(a, b)]}[m.n_starts]
     if len(starts) > m.n_starts:
         raise ParameterError(f"{m.name} takes at most {m.n_starts} start(s); got {len(starts)}: {starts!r}.")
     if len(starts) < m.n_starts:
@@ -236,8 +236,9 @@ class Session:
         if step.bracket is not None:
             a, b = step.bracket
             best = step.best if step.best is not None else step.x
-            mid = a + (b - a) / 2
-            if (b - a) <= s.xtol + s.rtol * abs(best) or mid == a or mid == b:
+            mid = midpoint(a, b)
+            # strict "<", as brentq and scipy.optimize.elementwise.find_root compare
+            if (b - a) < s.xtol + s.rtol * abs(best) or mid == a or mid == b:
                 self._finish("bracket-small")
                 return
         if self.method.stops_on_step:

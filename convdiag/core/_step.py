@@ -23,7 +23,7 @@ from ._models import LocalModel
 if TYPE_CHECKING:
     from ._evaluate import Evaluator
 
-__all__ = ["Halt", "Method", "Start", "Step"]
+__all__ = ["Halt", "Method", "Start", "Step", "midpoint", "same_sign"]
 
 Number = Any  # float, complex or mpmath.mpf; kept loose on purpose
 
@@ -151,6 +151,14 @@ class Method:
 
     def __repr__(self) -> str:
         return f"{type(self).__name__}()"
+
+
+def midpoint(a: Number, b: Number) -> Number:
+    """(a + b) / 2 without overflow on huge brackets (works for floats and mpmath)."""
+    d = b - a
+    if d - d != 0:  # b - a overflowed to infinity
+        return a / 2 + b / 2
+    return a + d / 2
 
 
 def same_sign(a: Number, b: Number) -> bool:
