@@ -29,18 +29,26 @@ def _cmd_run(args: argparse.Namespace) -> int:
         max_time=args.max_time,
         digits=args.digits,
     )
+    from ..core._order import estimate_order, order_json
+
+    estimate = estimate_order(run, root=args.root)
     if args.json:
         out = run.to_dict()
         if args.root is not None:
             out["known_root"] = args.root
+        measured = order_json(estimate)
+        out.update({key: measured[key] for key in ("order", "rate", "multiplicity", "efficiency")})
         print(json.dumps(out, allow_nan=False))
     else:
+        from ..report._order_text import order_text
         from ..report._text import run_text
 
         print(run_text(run))
         if args.root is not None:
             err = abs(float(run.root) - args.root)
             print(f"\n|root − given root {args.root:.17g}| = {err:.3g}")
+        print()
+        print(order_text(estimate))
     return 0 if run.converged else 1
 
 

@@ -20,9 +20,12 @@ from ._methods import (
     register,
 )
 from ._models import Chord, InverseParabola, LocalModel, Midpoint, Tangent, TangentHyperbola
+from ._order import Comparison, MethodResult, OrderEstimate, compare_methods, estimate_order, order_json
 from ._problem import Problem, as_problem
 from ._record import EvalLog, Recorder, record
+from ._reference import ReferenceRoot, reference_root, replay
 from ._run import CONVERGED, STOP_REASONS, Failure, Run, Settings
+from ._sequence import IterationSequence, as_sequence, load_sequence
 from ._session import Session, solve, start_session
 from ._step import Halt, Method, Start, Step
 
@@ -34,6 +37,7 @@ __all__ = [
     "BracketSearch",
     "Candidate",
     "Chord",
+    "Comparison",
     "EvalLog",
     "Failure",
     "Halley",
@@ -41,12 +45,16 @@ __all__ = [
     "Illinois",
     "InverseParabola",
     "InverseQuadratic",
+    "IterationSequence",
     "LocalModel",
     "Method",
+    "MethodResult",
     "Midpoint",
     "Newton",
+    "OrderEstimate",
     "Problem",
     "Recorder",
+    "ReferenceRoot",
     "RegulaFalsi",
     "Run",
     "Secant",
@@ -58,9 +66,16 @@ __all__ = [
     "Tangent",
     "TangentHyperbola",
     "as_problem",
+    "as_sequence",
+    "compare_methods",
+    "estimate_order",
     "find_brackets",
+    "load_sequence",
+    "order_json",
     "record",
+    "reference_root",
     "register",
+    "replay",
     "solve",
     "start_session",
 ]
