@@ -44,5 +44,13 @@ def run_demo(*, report_dir: str | None = None, as_json: bool = False) -> int:
         print("2. The same equation on the bracket [0.005, 0.1]:")
         print(run_text(runs["fixed"]))
     if report_dir is not None:
-        raise NotImplementedError("reports arrive with the report module")
+        from .report import make_report
+
+        report = make_report(
+            runs["failing"], runs["fixed"], title="Pipe P-17 friction factor: why the Newton loop fails"
+        )
+        paths = report.save(report_dir)
+        if not as_json:
+            print()
+            print(f"Report written: {paths['html']} (and {paths['markdown']})")
     return 0 if runs["fixed"].converged else 1

@@ -7,5 +7,6 @@ HTML formatters of core results. Figures import matplotlib when drawn.
 from . import _brackets_text as _brackets_text  # noqa: F401
 from . import _order_text as _order_text  # noqa: F401
 from . import _text as _text  # noqa: F401  (registers formatters)
+from ._document import Report, make_report
 
-__all__: list[str] = []
+__all__ = ["Report", "make_report"]
