@@ -1,0 +1,319 @@
+"""The safe expression language: values against Python's math module, derivatives against sympy, hostile text refused."""
+
+import math
+import os
+import re
+import subprocess
+import sys
+import time
+import warnings
+
+import mpmath
+import numpy as np
+import pytest
+import sympy
+from hypothesis import example, given
+from hypothesis import strategies as st
+
+from convdiag.core._expr import FUNCTIONS, Expression, parse_expression, sympy_to_text
+from convdiag.errors import ExpressionError, ParameterError
+
+PWNED = "/tmp/convdiag_pwned"
+
+# (text, params, x, reference value computed with Python's math module)
+VALUES = [
+    ("x**3 - 2*x + 2", {}, 1.3, 1.3**3 - 2 * 1.3 + 2),
+    ("x**3 = 2*x - 2", {}, 1.3, 1.3**3 - (2 * 1.3 - 2)),
+    ("cos(x) = x", {}, 0.5, math.cos(0.5) - 0.5),
+    ("exp(-0.5*x) - 0.1", {}, 2.0, math.exp(-0.5 * 2.0) - 0.1),
+    ("sin(x)*e + pi", {}, 0.3, math.sin(0.3) * math.e + math.pi),
+    ("log(x) + ln(x) + log10(x)", {}, 7.0, 2 * math.log(7.0) + math.log10(7.0)),
+    ("sqrt(x) + cbrt(x)", {}, 27.0, math.sqrt(27.0) + 3.0),
+    ("abs(x - 3) + sign(x - 3)", {}, 1.0, abs(1.0 - 3) + math.copysign(1.0, 1.0 - 3)),
+    ("tan(x) + atan(x) + asin(x/2) + acos(x/2)", {}, 0.7,
+     math.tan(0.7) + math.atan(0.7) + math.asin(0.35) + math.acos(0.35)),
+    ("sinh(x) + cosh(x) + tanh(x) + asinh(x) + acosh(x + 1) + atanh(x/2)", {}, 0.4,
+     math.sinh(0.4) + math.cosh(0.4) + math.tanh(0.4) + math.asinh(0.4) + math.acosh(1.4) + math.atanh(0.2)),
+    ("a*x**2 + b = c*x", {"a": 2.0, "b": -1.5, "c": 0.25}, 1.1, 2.0 * 1.1**2 - 1.5 - 0.25 * 1.1),
+    ("2**-x + -x**2", {}, 1.5, 2**-1.5 - 1.5**2),  # Python precedence: -x**2 == -(x**2)
+    ("x/3/2 - 2**3**2", {}, 6.0, 6.0 / 3 / 2 - 2**9),  # / is left-, ** right-associative
+    ("1e-3*x + 1_000", {}, 5.0, 1e-3 * 5.0 + 1000),
+    ("(x + 1)**(1/3)", {}, 7.0, 2.0),
+    ("k*cos(x)\n  - x", {"k": 3.0}, 0.2, 3.0 * math.cos(0.2) - 0.2),
+]
+
+
+@pytest.mark.parametrize(("text", "params", "x", "expected"), VALUES)
+def test_expression_values_match_python_math(text, params, x, expected):
+    # reference: Python math module (column "expected" above)
+    f = parse_expression(text).numeric(params)
+    assert f(x) == pytest.approx(expected, rel=1e-13, abs=1e-14)
+    assert isinstance(f(x), float)
+
+
+def test_real_cube_root_of_negative_numbers_is_negative():
+    f = parse_expression("cbrt(x)")
+    assert f.numeric()(-8.0) == pytest.approx(-2.0, rel=1e-15)  # reference: (-2)**3 == -8
+    assert f.mpmath()(mpmath.mpf(-27)) == pytest.approx(-3.0, rel=1e-15)  # reference: (-3)**3 == -27
+    assert parse_expression("cbrt(-8)").sympy == -2  # reference: exact arithmetic
+
+
+def test_parameters_are_listed_sorted_and_constants_are_not_parameters():
+    f = parse_expression("zeta*x + alpha*e - pi + x2")
+    assert f.params == ("alpha", "x2", "zeta")
+    assert f.variable == "x"
+    assert str(f) == f.text == "zeta*x + alpha*e - pi + x2"
+
+
+def test_other_variable_name_is_used():
+    f = parse_expression("t**2 - x", variable="t")
+    assert f.params == ("x",)
+    assert f.numeric({"x": 2.0})(3.0) == 7.0  # reference: 3**2 - 2
+
+
+def test_long_flat_sums_are_not_counted_as_deep_nesting():
+    f = parse_expression("+".join(["x"] * 300))
+    assert f.sympy == 300 * sympy.Symbol("x", real=True)  # reference: sympy
+
+
+def test_complex_step_derivative_matches_symbolic_derivative():
+    for text in ("x**3 - 2*x + 2", "exp(x)*sin(x) - cos(x)/x", "atan(x) + sqrt(x)"):
+        f = parse_expression(text)
+        h = 1e-20
+        complex_step = f.numeric()(1.0 + h * 1j).imag / h
+        assert complex_step == pytest.approx(float(f.diff().numeric()(1.0)), rel=1e-13)  # reference: sympy diff()
+    assert parse_expression("x**3 - 2*x + 2").diff().numeric()(1.0) == 1.0  # reference: 3*1**2 - 2
+
+
+X, A = sympy.symbols("x a", real=True)
+
+
+@pytest.mark.parametrize(
+    ("text", "reference"),
+    [
+        ("x**3 - 2*x + 2", X**3 - 2 * X + 2),
+        ("exp(-a*x)*sin(x)", sympy.exp(-A * X) * sympy.sin(X)),
+        ("log10(x) + ln(x**2)", sympy.log(X) / sympy.log(10) + sympy.log(X**2)),
+        ("x**x", X**X),
+        ("atanh(x/2) - acosh(x + 2)", sympy.atanh(X / 2) - sympy.acosh(X + 2)),
+        ("abs(x)*x", sympy.Abs(X) * X),
+        ("sqrt(1 + x**2) = a", sympy.sqrt(1 + X**2) - A),
+    ],
+)
+def test_derivatives_match_sympy(text, reference):
+    f = parse_expression(text)
+    for n in (1, 2, 3):
+        d = f.diff(n)
+        # reference: sympy.diff, with DiracDelta terms dropped as Expression.diff documents
+        expected = sympy.diff(reference, X, n).replace(sympy.DiracDelta, lambda *args: 0)
+        assert sympy.simplify(d.sympy - expected) == 0
+        assert d.params == f.params and d.variable == "x"
+        assert sympy.simplify(parse_expression(d.text).sympy - d.sympy) == 0  # the derivative's text reads back
+
+
+def test_derivative_of_cube_root_is_finite_away_from_zero():
+    d = parse_expression("cbrt(x)").diff()
+    assert d.numeric()(-8.0) == pytest.approx(1 / 12, rel=1e-14)  # reference: 1/(3*cbrt(-8)**2)
+    assert "DiracDelta" not in str(d.sympy)
+    assert parse_expression("x").diff(0).text == "x"
+
+
+def test_diff_order_is_validated():
+    with pytest.raises(ParameterError, match="'n' parameter of Expression.diff"):
+        parse_expression("x").diff(-1)
+    with pytest.raises(ParameterError, match="Got 11 instead"):
+        parse_expression("x").diff(11)
+
+
+def test_invalid_points_give_nan_without_warnings():
+    f = parse_expression("sqrt(x) + log(x)").numeric()
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        assert math.isnan(f(-1.0))
+        out = f(np.array([1.0, -1.0, 4.0]))
+    assert out[0] == 1.0 and math.isnan(out[1]) and out[2] == pytest.approx(2 + math.log(4))  # reference: math
+
+
+def test_arrays_are_evaluated_elementwise_also_for_constant_expressions():
+    xs = np.linspace(-2, 2, 9)
+    np.testing.assert_allclose(parse_expression("x**2 - 1").numeric()(xs), xs**2 - 1, rtol=1e-15)  # reference: numpy
+    const = parse_expression("3").numeric()
+    assert const(xs).shape == (9,) and np.all(const(xs) == 3.0)
+    assert isinstance(const(2.0), float) and const(2.0) == 3.0
+    np.testing.assert_array_equal(parse_expression("x*2").numeric()([1, 2]), [2.0, 4.0])  # ints -> floats
+
+
+def test_mpmath_replay_keeps_decimal_constants_exact():
+    with mpmath.workdps(60):
+        f = parse_expression("x - 0.1").mpmath()
+        assert f(mpmath.mpf(1) / 10) == 0  # 0.1 is read as 1/10 exactly, not the nearest double
+        g = parse_expression("x**2 = a").mpmath({"a": 2})
+        assert abs(g(mpmath.sqrt(2))) < mpmath.mpf(10) ** -58  # reference: mpmath.sqrt at 60 digits
+
+
+def test_missing_parameter_says_how_to_pass_it():
+    f = parse_expression("a*x - b")
+    with pytest.raises(ParameterError, match=re.escape("params={'a': ..., 'b': ...}")) as info:
+        f.numeric()
+    assert "--param a=VALUE --param b=VALUE" in str(info.value)
+    with pytest.raises(ParameterError, match=re.escape("params={'b': ...}")):
+        f.mpmath({"a": 1.0})
+
+
+def test_unknown_parameter_lists_the_known_ones():
+    with pytest.raises(ParameterError, match=r"Unknown parameter\(s\) 'c'.*'a', 'b'"):
+        parse_expression("a*x - b").numeric({"a": 1, "b": 2, "c": 3})
+    with pytest.raises(ParameterError, match="parameters are: none"):
+        parse_expression("x").numeric({"c": 3})
+    with pytest.raises(ParameterError, match="'a' parameter"):
+        parse_expression("a*x").numeric({"a": "1"})
+
+
+def test_parameter_values_are_passed_per_call_not_baked_into_a_cache():
+    f = parse_expression("a*x")
+    assert f.numeric({"a": 1.0})(2.0) == 2.0 and f.numeric({"a": 3.0})(2.0) == 6.0  # reference: a*x by hand
+
+
+@pytest.mark.parametrize("variable", ["", "1x", "_x", "sin", "e", "pi", "x y", 3])
+def test_invalid_variable_names_are_refused(variable):
+    with pytest.raises(ParameterError, match="'variable' parameter of parse_expression"):
+        parse_expression("1", variable=variable)
+
+
+def test_refusal_reports_column_in_the_original_text():
+    with pytest.raises(ExpressionError) as info:
+        parse_expression("x**2 =  y.real")
+    assert info.value.part == "y.real" and info.value.position == 9
+    with pytest.raises(ExpressionError, match="column 5"):
+        parse_expression("x + ) 1")
+
+
+def test_text_longer_than_max_length_is_refused_before_parsing():
+    with pytest.raises(ExpressionError, match="at most 5 are allowed"):
+        parse_expression("x + 1 ", max_length=5)
+
+
+def test_functions_table_lists_each_name_with_its_arity():
+    assert set(FUNCTIONS) >= {"sin", "cos", "exp", "log", "ln", "log10", "sqrt", "abs", "sign", "cbrt"}
+    assert all(arity == 1 for arity, _ in FUNCTIONS.values())
+    assert sympy_to_text(sympy.Abs(X) * sympy.E) == "e*abs(x)"
+
+
+HOSTILE = [  # (text, a piece the message must name)
+    (f"__import__('os').system('touch {PWNED}')", "__import__"),
+    ("().__class__.__bases__[0].__subclasses__()", "__subclasses__"),
+    ("x.__class__", "x.__class__"),
+    ("__builtins__", "__builtins__"),
+    ("open('/etc/passwd')", "open"),
+    ("eval('1')", "eval"),
+    ("exec('1')", "exec"),
+    ("getattr(x,'real')", "getattr"),
+    ("import os", "import os"),
+    ("lambda: 1", "lambda: 1"),
+    ("[i for i in range(9)]", "[i for i in range(9)]"),
+    ("sum(i for i in range(9))", "sum"),
+    ('f"{x}"', 'f"{x}"'),
+    ("'abc'", "abc"),
+    ("b'x'", "b'x'"),
+    ("x if x else 1", "x if x else 1"),
+    ("x < 1", "x < 1"),
+    ("x == 1", "x == 1"),
+    ("x and 1", "x and 1"),
+    ("not x", "not"),
+    ("~x", "~"),
+    ("(y:=1)", "y:=1"),
+    ("{1:2}", "{1:2}"),
+    ("{1}", "{1}"),
+    ("[1]", "[1]"),
+    ("(1,2)", "(1,2)"),
+    ("*x", "*x"),
+    ("sin(*x)", "sin(*x)"),
+    ("sin(x=1)", "sin(x=1)"),
+    ("sin(x, 2)", "sin(x, 2)"),
+    ("(f)(x)", "(f)(x)"),
+    ("sin(x)(2)", "sin(x)(2)"),
+    ("_x + 1", "_x"),
+    ("9**9**9", "9**9**9"),
+    ("10**10**10", "10**10**10"),
+    ("2**(2**(2**(2**10)))", "2**(2**10)"),
+    ("(9**9)**(9**9)", "(9**9)**(9**9)"),
+    ("(2*x)**(10**300)", "(2*x)**(10**300)"),
+    ("e**(10**300)", "e**(10**300)"),
+    ("exp(10**300*log(3))", "exp(10**300*log(3))"),
+    ("exp(exp(exp(10)))", "exp(exp(10))"),
+    ("x*10**300*10**300", "x*10**300*10**300"),
+    ("1e999", "1e999"),
+    ("1" + "0" * 400, "more than 300 digits"),
+    ('"1"*10**6', '"1"'),
+    ("x" * 5000, "5000 characters"),
+    ("(" * 200 + "x" + ")" * 200, "nested more than 60"),
+    ("-" * 5000 + "x", "5001 characters"),
+    ("-" * 500 + "x", "nested more than 60"),
+    ("x**" * 70 + "x", "nested more than 60"),
+    ("x ^ 2", "x ^ 2"),
+    ("x % 2", "x % 2"),
+    ("x // 2", "x // 2"),
+    ("3j", "3j"),
+    ("...", "..."),
+    ("None", "None"),
+    ("True", "True"),
+    ("False", "False"),
+    ("x.real", "x.real"),
+    ("x[0]", "x[0]"),
+    ("print(1)", "print"),
+    ("sin", "sin"),
+    ("1 +", "1 +"),
+    ("x = 1 = 2", "x = 1 = 2"),
+    ("= x", "= x"),
+    ("1/0", "1/0"),
+    ("tan(pi/2)", "tan(pi/2)"),
+    ("log(0)", "log(0)"),
+    ("sqrt(-1)", "sqrt(-1)"),
+    ("(-8)**(1/3)", "(-8)**(1/3)"),
+    ("\u03c0*x", "\u03c0"),
+    ("x\x00", "\\x00"),
+    ("", "empty"),
+    ("   \n ", "empty"),
+]
+
+
+@pytest.fixture(scope="module")
+def sympy_loaded():
+    parse_expression("sin(x) + 1")  # import sympy once, so the timing below measures refusal only
+
+
+@pytest.mark.parametrize(("text", "named"), HOSTILE, ids=[repr(t[:30]) for t, _ in HOSTILE])
+def test_hostile_text_is_refused_quickly_and_without_side_effects(text, named, sympy_loaded):
+    assert len(HOSTILE) >= 35
+    start = time.perf_counter()
+    with pytest.raises(ExpressionError, match=re.escape(named)) as info:
+        parse_expression(text)
+    assert time.perf_counter() - start < 0.5  # a guard against exact arithmetic on towers, not a benchmark
+    assert isinstance(info.value, ValueError) and isinstance(info.value.part, str)
+    assert info.value.position is None or 1 <= info.value.position <= len(text) + 1
+    assert not os.path.exists(PWNED)
+
+
+def test_importing_the_module_does_not_import_sympy():
+    code = "import convdiag.core._expr, sys; assert 'sympy' not in sys.modules, 'sympy imported'"
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=60)
+    assert done.returncode == 0, done.stderr
+
+
+def test_expression_repr_is_one_line():
+    assert repr(parse_expression("a*x = 1")) == "<Expression 'a*x = 1' in x, params a>"
+    assert isinstance(parse_expression("x"), Expression)
+
+
+coefficients = st.floats(min_value=-1e6, max_value=1e6, allow_nan=False, allow_infinity=False)
+
+
+@example(a=1.0, b=-2.0, c=1.0, x=1.0)  # double root at 1
+@example(a=0.1, b=0.2, c=-0.3, x=1.0)  # decimals that are not exact in binary
+@example(a=-0.0, b=5e-324, c=1e-300, x=-3.5)
+@given(a=coefficients, b=coefficients, c=coefficients, x=st.floats(min_value=-1e3, max_value=1e3))
+def test_quadratic_text_evaluates_like_python_arithmetic(a, b, c, x):
+    f = parse_expression(f"{a}*x**2 + {b}*x + {c}").numeric()
+    expected = a * x * x + b * x + c  # reference: direct Python arithmetic
+    # Relative 1e-12 of the terms' size: sympy may add the terms in another order.
+    assert abs(f(x) - expected) <= 1e-12 * (abs(a * x * x) + abs(b * x) + abs(c))
