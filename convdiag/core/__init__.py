@@ -6,6 +6,7 @@ nothing here prints.
 """
 
 from . import _hybrid as _hybrid  # registers the "hybrid" method
+from ._basin import BasinMap, basin_map
 from ._brackets import BracketSearch, Candidate, find_brackets
 from ._methods import (
     METHODS,
@@ -28,11 +29,15 @@ from ._run import CONVERGED, STOP_REASONS, Failure, Run, Settings
 from ._sequence import IterationSequence, as_sequence, load_sequence
 from ._session import Session, solve, start_session
 from ._step import Halt, Method, Start, Step
+from ._sweep import ParamGrid, SweepResult, param_grid, read_sweep_csv, sweep
+from ._vector import OUTCOMES, Lanes, classify_run, solve_many
 
 __all__ = [
     "CONVERGED",
     "METHODS",
+    "OUTCOMES",
     "STOP_REASONS",
+    "BasinMap",
     "Bisection",
     "BracketSearch",
     "Candidate",
@@ -46,12 +51,14 @@ __all__ = [
     "InverseParabola",
     "InverseQuadratic",
     "IterationSequence",
+    "Lanes",
     "LocalModel",
     "Method",
     "MethodResult",
     "Midpoint",
     "Newton",
     "OrderEstimate",
+    "ParamGrid",
     "Problem",
     "Recorder",
     "ReferenceRoot",
@@ -63,19 +70,26 @@ __all__ = [
     "Start",
     "Steffensen",
     "Step",
+    "SweepResult",
     "Tangent",
     "TangentHyperbola",
     "as_problem",
     "as_sequence",
+    "basin_map",
+    "classify_run",
     "compare_methods",
     "estimate_order",
     "find_brackets",
     "load_sequence",
     "order_json",
+    "param_grid",
+    "read_sweep_csv",
     "record",
     "reference_root",
     "register",
     "replay",
     "solve",
+    "solve_many",
     "start_session",
+    "sweep",
 ]

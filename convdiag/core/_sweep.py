@@ -1,0 +1,648 @@
+"""Parameter sweeps: solve f(x, **params) = 0 at every point of a grid or a sample of parameters.
+
+:func:`sweep` splits the points into chunks. A chunk is a pure function of its
+inputs (the sweep's settings and the parameter values of its points), has an
+id, and returns one row per point; the table is assembled by chunk id, so a
+chunk computed twice (a retry after a lost worker) is stored once and no point
+is lost or duplicated. Chunks run in this process (vectorised when ``f`` takes
+arrays), in a process pool (when it does not), or on a Dask cluster (pass a
+``dask.distributed.Client``). A KeyboardInterrupt stops the sweep and returns
+the finished chunks; the other points are marked ``not-run``.
+"""
+
+from __future__ import annotations
+
+import math
+import numbers
+import os
+import time
+import uuid
+from collections.abc import Callable, Mapping, Sequence
+from dataclasses import dataclass, field
+from typing import Any, Protocol
+
+import numpy as np
+from numpy.typing import NDArray
+
+from ..errors import ParameterError
+from ._show import Showable
+from ._vector import OUTCOMES, REASONS, VECTOR_METHODS, _functions, classify_run, solve_many
+
+__all__ = ["ParamGrid", "SweepResult", "param_grid", "read_sweep_csv", "set_progress_factory", "sweep"]
+
+Arr = NDArray[Any]
+FIELDS: tuple[tuple[str, str], ...] = (
+    ("start", "f8"), ("root", "f8"), ("f_root", "f8"), ("evals", "i4"), ("steps", "i4"),
+    ("outcome", "U13"), ("stop_reason", "U16"),
+)
+_HEAD: tuple[tuple[str, str], ...] = (("point", "i8"), ("chunk", "i4"))
+_RESERVED = {n for n, _ in (*_HEAD, *FIELDS)}
+_OC = {o: i for i, o in enumerate(OUTCOMES)}
+_RC = {r: i for i, r in enumerate(REASONS)}
+_HYBRID_OUTCOME = {"exact-zero": "converged", "bracket-small": "converged", "max-evals": "budget",
+                   "nonfinite-value": "domain-error", "function-raised": "domain-error",
+                   "no-sign-change": "no-bracket"}
+
+
+class ProgressSink(Protocol):
+    def update(self, done: int, total: int) -> None: ...
+
+    def close(self) -> None: ...
+
+
+_PROGRESS: list[Callable[[int], ProgressSink]] = []
+
+
+def set_progress_factory(factory: Callable[[int], ProgressSink] | None) -> None:
+    """Set what ``sweep(progress=True)`` shows (the display layer installs a text bar on stderr)."""
+    _PROGRESS.clear()
+    if factory is not None:
+        _PROGRESS.append(factory)
+
+
+# -- the points ---------------------------------------------------------------------------------------
+@dataclass(frozen=True)
+class ParamGrid:
+    """The Cartesian product of parameter axes (the first axis varies slowest)."""
+
+    names: tuple[str, ...]
+    axes: tuple[Arr, ...]
+
+    @property
+    def shape(self) -> tuple[int, ...]:
+        return tuple(int(a.size) for a in self.axes)
+
+    def points(self) -> dict[str, Arr]:
+        """One flat array per parameter, one entry per grid point."""
+        mesh = np.meshgrid(*self.axes, indexing="ij")
+        return {n: m.ravel() for n, m in zip(self.names, mesh)}
+
+
+def param_grid(**axes: Any) -> ParamGrid:
+    """A grid of parameter points: ``param_grid(e=np.linspace(0, 0.9, 10), M=np.linspace(0, 6, 50))``.
+
+    Examples
+    --------
+    >>> g = param_grid(a=[1.0, 2.0], b=[0.0, 0.5, 1.0])
+    >>> g.shape, g.points()["b"].tolist()
+    ((2, 3), [0.0, 0.5, 1.0, 0.0, 0.5, 1.0])
+    """
+    if not axes:
+        raise ParameterError("param_grid needs at least one axis, e.g. param_grid(a=np.linspace(0, 1, 11)).")
+    out = []
+    for k, v in axes.items():
+        a = np.asarray(v, dtype=np.float64).ravel()
+        if a.size == 0 or not np.all(np.isfinite(a)):
+            raise ParameterError.expected(k, "param_grid", "a non-empty sequence of finite numbers", v)
+        out.append(a)
+    return ParamGrid(tuple(axes), tuple(out))
+
+
+# -- the result ---------------------------------------------------------------------------------------
+def _dtype(names: Sequence[str]) -> np.dtype[Any]:
+    return np.dtype([*_HEAD, *((n, "f8") for n in names), *FIELDS])
+
+
+@dataclass(frozen=True, repr=False)
+class SweepResult(Showable):
+    """One row per parameter point: the start, the root, evaluations, outcome and stop reason.
+
+    Attributes
+    ----------
+    table : numpy structured array with fields ``point``, ``chunk``, one per parameter, ``start``,
+        ``root``, ``f_root``, ``evals``, ``steps``, ``outcome``, ``stop_reason`` (see
+        :data:`~convdiag.core._vector.OUTCOMES`; ``not-run`` marks points never computed).
+    params : the parameter names.
+    method, label : the method and the function's label.
+    grid : the :class:`ParamGrid` when the points form one (rows are in grid order), else None.
+    interrupted : the sweep was stopped by a KeyboardInterrupt before every chunk finished.
+    chunks, chunks_done : chunks in the sweep and chunks finished.
+    runner : where the chunks ran ("vectorized", "lane-by-lane", "process-pool", "dask", "scalar").
+    seconds : wall time.
+    notes : anything worth knowing (failed chunks, lane-by-lane calls, ...).
+    """
+
+    table: Arr
+    params: tuple[str, ...]
+    method: str
+    label: str
+    grid: ParamGrid | None
+    interrupted: bool
+    chunks: int
+    chunks_done: int
+    runner: str
+    seconds: float
+    notes: tuple[str, ...] = field(default=())
+
+    def __len__(self) -> int:
+        return int(self.table.shape[0])
+
+    @property
+    def outcome(self) -> Arr:
+        return self.table["outcome"]
+
+    def counts(self) -> dict[str, int]:
+        """Points per outcome, in the order of the outcome classes (absent ones left out)."""
+        names, k = np.unique(self.table["outcome"], return_counts=True)
+        got = dict(zip(names.tolist(), k.tolist()))
+        return {o: int(got[o]) for o in OUTCOMES if o in got}
+
+    def failures(self) -> Arr:
+        """The rows that did not converge (not-run rows included)."""
+        return self.table[self.table["outcome"] != "converged"]  # type: ignore[no-any-return]
+
+    def on_grid(self, name: str) -> Arr:
+        """A field reshaped to the grid's shape (for a sweep over a :class:`ParamGrid`)."""
+        if self.grid is None:
+            raise ParameterError("This sweep's points are not a grid; use result.table[name].")
+        return self.table[name].reshape(self.grid.shape)
+
+    def to_csv(self, path: str | os.PathLike[str]) -> None:
+        """Write the table as CSV (floats with 17 significant digits, so they reload exactly)."""
+        fmt = ["%d", "%d", *(["%.17g"] * (len(self.params) + 3)), "%d", "%d", "%s", "%s"]
+        np.savetxt(path, self.table, fmt=fmt, delimiter=",", header=",".join(self.table.dtype.names or ()),
+                   comments="", encoding="utf-8")
+
+    def __repr__(self) -> str:
+        parts = ", ".join(f"{k} {v}" for k, v in self.counts().items())
+        cut = ", interrupted" if self.interrupted else ""
+        return f"<SweepResult {self.method}: {len(self)} points ({parts}){cut}>"
+
+
+def read_sweep_csv(path: str | os.PathLike[str]) -> Arr:
+    """Read a table written by :meth:`SweepResult.to_csv` back as a structured array (same dtype).
+
+    Examples
+    --------
+    >>> import os, tempfile
+    >>> res = sweep("x**2 - a", param_grid(a=[1.0, 4.0]), start=3.0)
+    >>> path = os.path.join(tempfile.mkdtemp(), "s.csv")
+    >>> res.to_csv(path)
+    >>> back = read_sweep_csv(path)
+    >>> back["root"].tolist(), back.dtype == res.table.dtype
+    ([1.0, 2.0], True)
+    """
+    with open(path, encoding="utf-8") as fh:
+        names = fh.readline().strip().split(",")
+    params = [n for n in names if n not in _RESERVED]
+    dt = _dtype(params)
+    if list(dt.names or ()) != names:
+        raise ParameterError(f"{os.fspath(path)!r} is not a sweep table: its columns are {names}.")
+    return np.loadtxt(path, dtype=dt, delimiter=",", skiprows=1, encoding="utf-8", comments=None, ndmin=1)
+
+
+# -- one chunk (pure: the same inputs give the same rows) --------------------------------------------
+@dataclass(frozen=True)
+class _Spec:
+    f: Any
+    method: str
+    start: Any
+    bracket: Any
+    fprime: Any
+    fprime2: Any
+    xtol: float
+    rtol: float | None
+    ftol: float
+    max_evals: int
+    max_steps: int | None
+    variable: str
+    vectorized: bool | None
+    exact: bool
+
+
+def _per_point(fn: Callable[..., Any], cols: Mapping[str, Arr], n: int) -> Arr:
+    """Call ``fn(**params)`` on all points at once, or point by point; NaN where it fails."""
+    try:
+        with np.errstate(all="ignore"):
+            out = np.asarray(fn(**cols), dtype=np.float64)
+        if out.shape in ((n,), ()):
+            return np.broadcast_to(out, (n,)).copy()
+    except Exception:  # noqa: BLE001  (fall back to one call per point)
+        pass
+    res = np.full(n, np.nan)
+    rows = {k: v.tolist() for k, v in cols.items()}
+    for i in range(n):
+        try:
+            res[i] = float(fn(**{k: v[i] for k, v in rows.items()}))
+        except Exception:  # noqa: BLE001  (this point gets no start: marked bad-value)
+            pass
+    return res
+
+
+def _starts(spec: _Spec, cols: Mapping[str, Arr], n: int, lo: int) -> Arr:
+    s = spec.start
+    if callable(s):
+        return _per_point(s, cols, n)
+    if isinstance(s, np.ndarray) and s.ndim == 1:
+        return s[lo:lo + n].astype(np.float64)
+    return np.full(n, float(s))
+
+
+def run_chunk(payload: _Spec | bytes, chunk: int, lo: int, cols: Mapping[str, Arr]) -> tuple[int, dict[str, Arr]]:
+    """Solve the points of one chunk; returns (chunk id, column arrays). Pure and picklable."""
+    if isinstance(payload, bytes):  # shipped with cloudpickle
+        import pickle
+
+        payload = pickle.loads(payload)
+    spec: _Spec = payload  # type: ignore[assignment]
+    n = next(iter(cols.values())).shape[0] if cols else 0
+    out: dict[str, Arr] = {
+        "start": np.full(n, np.nan), "root": np.full(n, np.nan), "f_root": np.full(n, np.nan),
+        "evals": np.zeros(n, np.int32), "steps": np.zeros(n, np.int32),
+        "outcome": np.full(n, _OC["domain-error"], np.uint8), "reason": np.full(n, _RC["bad-value"], np.uint8),
+    }
+    if spec.method in VECTOR_METHODS:
+        x0 = _starts(spec, cols, n, lo)
+        out["start"] = x0
+        ok = np.flatnonzero(np.isfinite(x0))
+        if ok.size:
+            lanes = solve_many(
+                spec.f, spec.method, starts=x0[ok], fprime=spec.fprime, fprime2=spec.fprime2,  # type: ignore[arg-type]
+                params={k: v[ok] for k, v in cols.items()}, xtol=spec.xtol, rtol=spec.rtol, ftol=spec.ftol,
+                max_evals=spec.max_evals, max_steps=spec.max_steps, variable=spec.variable,
+                vectorized=spec.vectorized, exact=spec.exact,
+            )
+            out["root"][ok], out["f_root"][ok] = lanes.x, lanes.fx
+            out["evals"][ok], out["steps"][ok] = lanes.evals, lanes.steps
+            out["outcome"][ok], out["reason"][ok] = lanes.outcome_code, lanes.reason_code
+        return chunk, out
+    a, b = _brackets(spec, cols, n)
+    out["start"] = a
+    ok = np.flatnonzero(np.isfinite(a) & np.isfinite(b) & (a != b))
+    if spec.method == "hybrid" and ok.size:
+        from ._vhybrid import hybrid_many
+
+        fns = _functions(spec.f, None, None, list(cols), spec.variable, "sweep")
+        res = hybrid_many(
+            _lane_function(fns, spec.vectorized), a[ok], b[ok], xtol=spec.xtol, rtol=spec.rtol,
+            max_evals=spec.max_evals, params={k: v[ok] for k, v in cols.items()},
+        )
+        status = res.status.tolist()
+        out["root"][ok], out["f_root"][ok], out["evals"][ok] = res.root, res.fun, res.evaluations
+        out["steps"][ok] = np.maximum(res.evaluations - 2, 0)
+        out["outcome"][ok] = [_OC[_HYBRID_OUTCOME.get(s, "domain-error")] for s in status]
+        out["reason"][ok] = [_RC.get(s, _RC["bad-value"]) for s in status]
+    elif ok.size:
+        _scalar_points(spec, cols, a, b, ok, out)
+    return chunk, out
+
+
+def _brackets(spec: _Spec, cols: Mapping[str, Arr], n: int) -> tuple[Arr, Arr]:
+    br = spec.bracket
+    if callable(br):
+        pair: list[Arr] = []
+        for j in range(2):
+            pair.append(_per_point(lambda _j=j, **p: br(**p)[_j], cols, n))
+        return pair[0], pair[1]
+    return np.full(n, float(br[0])), np.full(n, float(br[1]))
+
+
+def _lane_function(fns: Any, vectorized: bool | None) -> Callable[..., Any]:
+    def f(x: Arr, **p: Any) -> Arr:
+        y, _ = fns.call(0, x, p, False)
+        return y  # type: ignore[no-any-return]
+
+    if vectorized is False:
+        fns.vectorized = False
+    return f
+
+
+def _scalar_points(spec: _Spec, cols: Mapping[str, Arr], a: Arr, b: Arr, ok: Arr, out: dict[str, Arr]) -> None:
+    """Any registered method, one point at a time with the scalar driver."""
+    from ..errors import BracketError
+    from ._session import solve
+
+    rows = {k: v.tolist() for k, v in cols.items()}
+    for i in ok.tolist():
+        kw = dict(xtol=spec.xtol, rtol=spec.rtol, ftol=spec.ftol, max_evals=spec.max_evals,
+                  max_steps=spec.max_steps)
+        try:
+            with np.errstate(all="ignore"):
+                run = solve(spec.f, spec.method, bracket=(float(a[i]), float(b[i])),
+                            params={k: v[i] for k, v in rows.items()} or None, **kw)  # type: ignore[arg-type]
+        except BracketError:
+            out["outcome"][i], out["reason"][i] = _OC["no-bracket"], _RC["no-sign-change"]
+            out["evals"][i] = 2
+            continue
+        except ParameterError:
+            continue
+        out["root"][i] = float(run.root) if run.root is not None else math.nan
+        vals = run.values
+        out["f_root"][i] = vals[np.nanargmin(np.abs(vals))] if np.isfinite(vals).any() else math.nan
+        out["evals"][i], out["steps"][i] = run.evaluations, len(run.steps)
+        out["outcome"][i], out["reason"][i] = _OC[classify_run(run)], _RC.get(run.stop_reason, _RC["not-run"])
+
+
+# -- assembling rows by chunk id ----------------------------------------------------------------------
+class _Assembly:
+    """The table, filled chunk by chunk; a chunk that arrives twice is stored once."""
+
+    def __init__(self, cols: Mapping[str, Arr], bounds: list[tuple[int, int]]) -> None:
+        n = bounds[-1][1] if bounds else 0
+        t = np.zeros(n, _dtype(list(cols)))
+        t["point"] = np.arange(n)
+        for cid, (lo, hi) in enumerate(bounds):
+            t["chunk"][lo:hi] = cid
+        for k, v in cols.items():
+            t[k] = v
+        for k in ("start", "root", "f_root"):
+            t[k] = np.nan
+        t["outcome"], t["stop_reason"] = "not-run", "not-run"
+        self.table, self.bounds, self.done = t, bounds, set[int]()
+
+    def add(self, chunk: int, arrays: Mapping[str, Arr]) -> bool:
+        if chunk in self.done:
+            return False
+        lo, hi = self.bounds[chunk]
+        t = self.table[lo:hi]
+        for k in ("start", "root", "f_root", "evals", "steps"):
+            t[k] = arrays[k]
+        t["outcome"] = np.asarray(OUTCOMES)[arrays["outcome"]]
+        t["stop_reason"] = np.asarray(REASONS)[arrays["reason"]]
+        self.done.add(chunk)
+        return True
+
+    @property
+    def points_done(self) -> int:
+        return sum(self.bounds[c][1] - self.bounds[c][0] for c in self.done)
+
+
+class _Callback:
+    def __init__(self, fn: Callable[[int, int], None]) -> None:
+        self.fn = fn
+
+    def update(self, done: int, total: int) -> None:
+        self.fn(done, total)
+
+    def close(self) -> None:
+        return None
+
+
+def _sink(progress: Any, n: int, chunks: int) -> ProgressSink | None:
+    if progress is False or (progress is None and chunks < 2):
+        return None
+    if callable(progress):
+        return _Callback(progress)
+    return _PROGRESS[0](n) if _PROGRESS else None
+
+
+# -- runners ------------------------------------------------------------------------------------------
+def _slice(cols: Mapping[str, Arr], lo: int, hi: int) -> dict[str, Arr]:
+    return {k: v[lo:hi] for k, v in cols.items()}
+
+
+def _report(asm: _Assembly, sink: ProgressSink | None) -> None:
+    if sink is not None:
+        sink.update(asm.points_done, asm.table.shape[0])
+
+
+def _run_here(spec: _Spec, cols: Mapping[str, Arr], asm: _Assembly, sink: ProgressSink | None,
+              notes: list[str]) -> bool:
+    for cid, (lo, hi) in enumerate(asm.bounds):
+        try:
+            _, arrays = run_chunk(spec, cid, lo, _slice(cols, lo, hi))
+        except KeyboardInterrupt:
+            return True
+        except Exception as exc:  # noqa: BLE001  (its points stay not-run; the others go on)
+            notes.append(f"chunk {cid} (points {lo}..{hi - 1}) failed: {type(exc).__name__}: {exc}")
+            continue
+        asm.add(cid, arrays)
+        try:
+            _report(asm, sink)
+        except KeyboardInterrupt:
+            return True
+    return False
+
+
+def _dumps(spec: _Spec) -> bytes:
+    try:
+        import cloudpickle
+
+        return cloudpickle.dumps(spec)  # type: ignore[no-any-return]
+    except ImportError:
+        import pickle
+
+        return pickle.dumps(spec)
+
+
+def _run_pool(spec: _Spec, cols: Mapping[str, Arr], asm: _Assembly, sink: ProgressSink | None,
+              notes: list[str], workers: int) -> bool:
+    from concurrent.futures import ProcessPoolExecutor, as_completed
+    from concurrent.futures.process import BrokenProcessPool
+
+    payload = _dumps(spec)
+    todo = set(range(len(asm.bounds)))
+    for _attempt in range(3):  # a lost worker breaks the pool: start a new one for the chunks not stored
+        if not todo:
+            break
+        pool = ProcessPoolExecutor(max_workers=workers)
+        futures = {pool.submit(run_chunk, payload, c, asm.bounds[c][0], _slice(cols, *asm.bounds[c])): c
+                   for c in sorted(todo)}
+        try:
+            for fut in as_completed(futures):
+                try:
+                    cid, arrays = fut.result()
+                except BrokenProcessPool:
+                    notes.append("a worker process died; its chunks were run again")
+                    break
+                except Exception as exc:  # noqa: BLE001
+                    c = futures[fut]
+                    notes.append(f"chunk {c} failed: {type(exc).__name__}: {exc}")
+                    todo.discard(c)
+                    continue
+                todo.discard(cid)
+                if asm.add(cid, arrays):
+                    _report(asm, sink)
+        except KeyboardInterrupt:
+            return True
+        finally:
+            pool.shutdown(wait=False, cancel_futures=True)
+    return False
+
+
+def _run_dask(client: Any, spec: _Spec, cols: Mapping[str, Arr], asm: _Assembly, sink: ProgressSink | None,
+              notes: list[str]) -> bool:
+    from distributed import as_completed
+
+    token = uuid.uuid4().hex[:12]
+    payload = client.scatter(_dumps(spec), broadcast=True, hash=False)
+    futures = [
+        client.submit(run_chunk, payload, c, lo, _slice(cols, lo, hi), key=f"convdiag-sweep-{token}-{c}", retries=2)
+        for c, (lo, hi) in enumerate(asm.bounds)
+    ]
+    try:
+        for fut in as_completed(futures):  # type: ignore[no-untyped-call]
+            try:
+                cid, arrays = fut.result()
+            except Exception as exc:  # noqa: BLE001  (its points stay not-run)
+                notes.append(f"{fut.key} failed: {type(exc).__name__}: {exc}")
+                continue
+            if asm.add(cid, arrays):
+                _report(asm, sink)
+    except KeyboardInterrupt:
+        client.cancel(futures)
+        return True
+    return False
+
+
+# -- the sweep ----------------------------------------------------------------------------------------
+def _points(params: Any, owner: str) -> tuple[dict[str, Arr], ParamGrid | None]:
+    if isinstance(params, ParamGrid):
+        return params.points(), params
+    if not isinstance(params, Mapping) or not params:
+        raise ParameterError.expected("params", owner, "a ParamGrid or a mapping of names to 1-D arrays", params)
+    cols = {str(k): np.asarray(v, dtype=np.float64).ravel() for k, v in params.items()}
+    sizes = {k: v.size for k, v in cols.items()}
+    if len(set(sizes.values())) != 1:
+        raise ParameterError(f"The parameter arrays of {owner} must have one value per point; got sizes {sizes}.")
+    return cols, None
+
+
+def _probe(spec: _Spec, cols: Mapping[str, Arr]) -> bool:
+    """Does f take arrays? (One call on the first few points.)"""
+    if isinstance(spec.f, str) or type(spec.f).__module__.startswith("sympy"):
+        return True
+    k = min(4, next(iter(cols.values())).size)
+    sub = _slice(cols, 0, k)
+    x = _starts(spec, sub, k, 0) if spec.method in VECTOR_METHODS else _brackets(spec, sub, k)[0]
+    x = np.where(np.isfinite(x), x, 0.0)
+    try:
+        with np.errstate(all="ignore"):
+            y = np.asarray(spec.f(x, **sub))
+    except Exception:  # noqa: BLE001
+        return False
+    return y.shape == x.shape and y.dtype.kind in "fciub"
+
+
+def sweep(
+    f: Any,
+    params: ParamGrid | Mapping[str, Any],
+    *,
+    method: str = "newton",
+    start: Any = None,
+    bracket: Any = None,
+    fprime: Any = None,
+    fprime2: Any = None,
+    xtol: float = 0.0,
+    rtol: float | None = None,
+    ftol: float = 0.0,
+    max_evals: int = 100,
+    max_steps: int | None = None,
+    variable: str = "x",
+    vectorized: bool | None = None,
+    exact: bool = True,
+    chunk_size: int | None = None,
+    client: Any = None,
+    processes: int | None = None,
+    progress: bool | Callable[[int, int], None] | None = None,
+) -> SweepResult:
+    """Solve ``f(x, **params) = 0`` at every parameter point and tabulate how each one went.
+
+    Parameters
+    ----------
+    f : callable, str or sympy expression
+        ``f(x, **params)``; vectorised (numpy) code runs whole chunks at once.
+    params : ParamGrid or mapping of str to 1-D array_like
+        A grid (:func:`param_grid`) or a sample: one array per parameter, one entry per point.
+    method : str
+        An open method of :func:`~convdiag.core._vector.solve_many` (vectorised), ``"hybrid"``
+        (vectorised bracketing), or any method of :func:`convdiag.solve` (point by point).
+    start : float, callable or 1-D array, optional
+        For open methods: one start for all points, ``start(**params)`` per point (e.g. Kepler's
+        ``lambda M, e: M + e*np.sin(M)``), or one value per point.
+    bracket : (a, b) or callable, optional
+        For bracketing methods: one bracket, or ``bracket(**params) -> (a, b)`` per point.
+    fprime, fprime2, xtol, rtol, ftol, max_evals, max_steps, variable, vectorized, exact
+        As for :func:`~convdiag.core._vector.solve_many`, per point.
+    chunk_size : int, optional
+        Points per chunk (default 65536 vectorised, 1024 point by point).
+    client : dask.distributed.Client, optional
+        Run the chunks on this cluster.
+    processes : int, optional
+        Worker processes for a function that does not take arrays (default: one per CPU when there
+        is more than one chunk; 1 runs here).
+    progress : bool or callable, optional
+        ``progress(done, total)`` after each chunk (points), True for the text bar on stderr, False
+        for nothing; by default the bar shows for sweeps of several chunks that take over a second.
+
+    Returns
+    -------
+    SweepResult
+        The table (a structured array; ``to_csv``), counts per outcome, and whether it was
+        interrupted. Never raises because of the user's function.
+
+    Raises
+    ------
+    ParameterError
+        Bad points, settings, start or bracket.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> kepler = lambda E, M, e: E - e * np.sin(E) - M
+    >>> grid = param_grid(e=[0.1, 0.5, 0.9], M=[0.5, 1.0, 2.0])
+    >>> res = sweep(kepler, grid, start=lambda M, e: M + e * np.sin(M), fprime=lambda E, M, e: 1 - e * np.cos(E))
+    >>> res.counts()
+    {'converged': 9}
+    >>> round(float(res.on_grid("root")[1, 1]), 12)  # M = 1, e = 0.5 (REFERENCES §5: 1.49870113351785)
+    1.498701133518
+    """
+    from ._methods import METHODS
+    from ._session import _validate_settings
+
+    owner = "sweep"
+    t0 = time.perf_counter()
+    cols, grid = _points(params, owner)
+    clash = sorted(set(cols) & _RESERVED)
+    if clash:
+        raise ParameterError(f"Parameter names {clash} clash with the sweep table's columns; rename them.")
+    n = next(iter(cols.values())).size
+    _validate_settings(xtol, 0.0 if rtol is None else rtol, ftol, max_evals, None, max_steps, owner)
+    vector = method in VECTOR_METHODS
+    if not vector and method != "hybrid" and method not in METHODS:
+        raise ParameterError.expected("method", owner, f"one of {', '.join(sorted({*METHODS, *VECTOR_METHODS}))}",
+                                      method)
+    bracketing = method == "hybrid" or (not vector and METHODS[method].needs_bracket)
+    if bracketing and bracket is None:
+        raise ParameterError(f"{method} needs a bracket: pass bracket=(a, b) or bracket=lambda **params: (a, b).")
+    if not bracketing and not vector:
+        raise ParameterError(f"Sweeps run open methods vectorised: use one of {', '.join(VECTOR_METHODS)}, or a "
+                             f"bracketing method with bracket=...; got {method!r}.")
+    if vector and start is None:
+        raise ParameterError("Open methods need a start: pass start=x0, start=lambda **params: x0, or an array.")
+    if vector and not callable(start):
+        s = np.asarray(start, dtype=np.float64)
+        if not (s.ndim == 0 or s.shape == (n,)) or not np.all(np.isfinite(s)):
+            raise ParameterError.expected("start", owner, f"a finite number, a callable or {n} finite numbers", start)
+        start = float(s) if s.ndim == 0 else s
+    if chunk_size is not None and (not isinstance(chunk_size, numbers.Integral) or chunk_size < 1):
+        raise ParameterError.expected("chunk_size", owner, "an int >= 1", chunk_size)
+    _functions(f, fprime, fprime2, list(cols), variable, owner)  # unknown parameters fail here, not per chunk
+    spec = _Spec(f, method, start, bracket, fprime, fprime2, float(xtol), rtol, float(ftol), int(max_evals),
+                 max_steps, variable, vectorized, bool(exact))
+    fast = vectorized is not False and (vector or method == "hybrid") and n > 0 and _probe(spec, cols)
+    size = int(chunk_size or (65536 if fast else 1024))
+    bounds = [(lo, min(lo + size, n)) for lo in range(0, n, size)]
+    asm = _Assembly(cols, bounds)
+    sink = _sink(progress, n, len(bounds))
+    notes: list[str] = []
+    workers = processes if processes is not None else (os.cpu_count() or 1) if len(bounds) > 1 else 1
+    try:
+        if client is not None:
+            runner = "dask"
+            stopped = _run_dask(client, spec, cols, asm, sink, notes)
+        elif fast or workers <= 1:
+            runner = "vectorized" if fast else ("lane-by-lane" if vector else "scalar")
+            stopped = _run_here(spec, cols, asm, sink, notes)
+        else:
+            runner = "process-pool"
+            stopped = _run_pool(spec, cols, asm, sink, notes, workers)
+    finally:
+        if sink is not None:
+            sink.close()
+    label = f if isinstance(f, str) else getattr(f, "__name__", type(f).__name__)
+    return SweepResult(
+        table=asm.table, params=tuple(cols), method=method, label=str(label), grid=grid,
+        interrupted=bool(stopped) and len(asm.done) < len(bounds), chunks=len(bounds), chunks_done=len(asm.done),
+        runner=runner, seconds=time.perf_counter() - t0, notes=tuple(notes),
+    )
