@@ -1,0 +1,498 @@
+"""Figures of one step: the function with the step's local model, and how fast a run closes in.
+
+:class:`StepDisplay` draws f over an x-range with what the current step
+assumed (the tangent line, the line through two points, the sideways
+parabola through three points, the hyperbola, or the bracket's middle),
+the bracket shaded, the model's zero and the new iterate marked.
+:class:`ProgressDisplay` draws step sizes, |f| and (when a reference root
+is known) errors on a log scale against iteration and against function
+evaluations. Both follow the display-object shape: ``from_...`` computes,
+``plot(ax=None)`` draws; ``update(other)`` moves the drawn artists to
+another display's data without creating new ones (the explorer widget
+uses it to stay fast).
+
+The function curve is sampled outside the run's record (the run's
+evaluation count is unchanged): vectorised when f takes arrays, else point
+by point, NaN where f fails.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+from numpy.typing import NDArray
+
+__all__ = ["COLOURS", "MODEL_NAMES", "ProgressDisplay", "StepDisplay", "auto_xlim", "sample_curve"]
+
+FloatArray = NDArray[np.float64]
+_EMPTY: FloatArray = np.zeros(0)
+
+#: the explorer's palette (ink, model, new point, bracket, earlier points, step size, |f|, error).
+COLOURS = {
+    "ink": "#243447", "grid": "#d5dbe1", "model": "#d9822b", "new": "#b8336a", "bracket": "#3aa6a0",
+    "past": "#8795a3", "start": "#4a6fa5", "step": "#3d6fb6", "resid": "#7d8c2b", "error": "#b8336a",
+}
+#: plain names of the local models, by ``model.kind``.
+MODEL_NAMES = {
+    "tangent": "tangent line", "chord": "line through two points",
+    "inverse-parabola": "sideways parabola through three points", "midpoint": "middle of the bracket",
+    "tangent-hyperbola": "hyperbola matching f, f′ and f″",
+}
+
+
+def _fl(v: Any) -> float:
+    try:
+        return float(v)
+    except (TypeError, ValueError, OverflowError):
+        try:
+            return float(complex(v).real)
+        except (TypeError, ValueError, OverflowError):
+            return math.nan
+
+
+def _one(f: Callable[[Any], Any], x: float) -> float:
+    try:
+        with np.errstate(all="ignore"):
+            return _fl(f(float(x)))
+    except Exception:  # noqa: BLE001  (the user's function failed here: a gap in the curve)
+        return math.nan
+
+
+def sample_curve(f: Callable[[Any], Any], lo: float, hi: float, n: int = 300) -> tuple[FloatArray, FloatArray]:
+    """f on ``n`` equally spaced points of [lo, hi]; NaN where f raises or is not a real number.
+
+    Examples
+    --------
+    >>> xs, ys = sample_curve(lambda x: x * x - 2, 0.0, 2.0, 5)
+    >>> ys.tolist()
+    [-2.0, -1.75, -1.0, 0.25, 2.0]
+    """
+    xs = np.linspace(lo, hi, max(int(n), 2))
+    ys: FloatArray | None = None
+    try:
+        with np.errstate(all="ignore"):
+            out = np.asarray(f(xs))
+        if out.shape == xs.shape and out.dtype.kind in "fiu":
+            ys = out.astype(np.float64)
+    except Exception:  # noqa: BLE001  (not vectorised: go point by point)
+        ys = None
+    if ys is None:
+        ys = np.array([_one(f, x) for x in xs], dtype=np.float64)
+    ys[~np.isfinite(ys)] = np.nan
+    return xs, ys
+
+
+def auto_xlim(points: Sequence[float], *, core: Sequence[float] = (), reach: float = 25.0) -> tuple[float, float]:
+    """An x-range showing ``core`` (starts, bracket) and the ``points`` not far from it, padded by 10 %.
+
+    Points farther than ``reach`` core widths from the core's centre are left out (they are
+    marked at the edge instead), so one wild step does not squash the picture.
+
+    Examples
+    --------
+    >>> auto_xlim([1.5, 1.4, 80.0], core=[1.0])
+    (0.675, 1.575)
+    """
+    base = [v for v in core if math.isfinite(v)] or [v for v in points if math.isfinite(v)][:1] or [0.0]
+    lo, hi = min(base), max(base)
+    if hi == lo:  # one start: half a unit (or half its size) around it
+        half = 0.25 * max(1.0, abs(lo))
+        lo, hi = lo - half, hi + half
+    centre, width = (lo + hi) / 2, hi - lo
+    for v in points:
+        if math.isfinite(v) and abs(v - centre) <= reach * width:
+            lo, hi = min(lo, v), max(hi, v)
+    pad = 0.1 * (hi - lo)
+    return (round(lo - pad, 12), round(hi + pad, 12))
+
+
+def _ylim(ys: FloatArray, extra: Sequence[float] = ()) -> tuple[float, float]:
+    fin = ys[np.isfinite(ys)]
+    if fin.size == 0:
+        vals = [v for v in extra if math.isfinite(v)]
+        fin = np.array(vals or [-1.0, 1.0])
+    lo, hi = float(np.percentile(fin, 2)), float(np.percentile(fin, 98))
+    lo, hi = min(lo, 0.0), max(hi, 0.0)
+    span = hi - lo or max(1.0, abs(lo))
+    for v in extra:
+        if math.isfinite(v) and lo - span <= v <= hi + span:
+            lo, hi = min(lo, v), max(hi, v)
+    pad = 0.08 * (hi - lo or 1.0)
+    return lo - pad, hi + pad
+
+
+@dataclass
+class StepDisplay:
+    """f near the iterates, with the current step's local model.
+
+    Build it with :meth:`from_session` (the step a :class:`~convdiag.Session`'s cursor is on)
+    or :meth:`from_run` (any step of a finished run), then :meth:`plot`.
+
+    Attributes
+    ----------
+    curve_x, curve_y : f sampled over ``xlim`` (NaN where f failed).
+    xlim, ylim : the ranges shown.
+    past_x, past_y : the starts and earlier iterates (before the current step).
+    index : the current step number (0: only the starts are known).
+    model_kind : ``tangent``, ``chord``, ``inverse-parabola``, ``midpoint``, ``tangent-hyperbola`` or "".
+    model_x, model_y : the model sampled over ``xlim``.
+    anchor_x, anchor_y : the points the model was built from.
+    zero_x : where the model meets zero.
+    new_x, new_y : the new iterate and f there.
+    bracket_before, bracket_after : the bracket before and after the step (bracketing methods).
+    title : one line: the step number and what the method did.
+    offscreen : a note on iterates outside ``xlim``.
+    """
+
+    curve_x: FloatArray
+    curve_y: FloatArray
+    xlim: tuple[float, float]
+    ylim: tuple[float, float]
+    past_x: FloatArray
+    past_y: FloatArray
+    index: int = 0
+    model_kind: str = ""
+    model_x: FloatArray = field(default_factory=lambda: _EMPTY)
+    model_y: FloatArray = field(default_factory=lambda: _EMPTY)
+    anchor_x: FloatArray = field(default_factory=lambda: _EMPTY)
+    anchor_y: FloatArray = field(default_factory=lambda: _EMPTY)
+    zero_x: float = math.nan
+    new_x: float = math.nan
+    new_y: float = math.nan
+    bracket_before: tuple[float, float] | None = None
+    bracket_after: tuple[float, float] | None = None
+    title: str = ""
+    label: str = "f"
+    offscreen: str = ""
+    ax_: Any = field(default=None, init=False, repr=False)
+    figure_: Any = field(default=None, init=False, repr=False)
+    lines_: dict[str, Any] = field(default_factory=dict, init=False, repr=False)
+
+    # -- computing -----------------------------------------------------------------
+    @classmethod
+    def from_session(
+        cls, session: Any, *, xlim: tuple[float, float] | None = None, samples: int = 300,
+        curve: tuple[FloatArray, FloatArray] | None = None,
+    ) -> StepDisplay:
+        """The step a session's cursor is on (``session.position``; 0 shows the starts).
+
+        ``curve`` passes an already sampled (x, f(x)) over ``xlim`` to skip sampling again.
+        """
+        steps = list(session.steps[: session.position])
+        return cls._build(session.problem.f, session.problem.label, session.method.title, list(session.starts),
+                          list(session.start_values), steps, session.bracket, xlim, samples, curve)
+
+    @classmethod
+    def from_run(cls, run: Any, step: int | None = None, *, xlim: tuple[float, float] | None = None,
+                 samples: int = 300) -> StepDisplay:
+        """Step ``step`` (1-based; default the last) of a run; the curve needs ``run.source``."""
+        n = len(run.steps) if step is None else max(0, min(int(step), len(run.steps)))
+        f = run.source.f if run.source is not None else None
+        return cls._build(f, run.problem, run.method_title, list(run.starts), list(run.start_values),
+                          list(run.steps[:n]), run.bracket, xlim, samples, None)
+
+    @classmethod
+    def _build(cls, f: Callable[[Any], Any] | None, label: str, title: str, starts: list[Any], fstarts: list[Any],
+               steps: list[Any], bracket: Any, xlim: tuple[float, float] | None, samples: int,
+               curve: tuple[FloatArray, FloatArray] | None) -> StepDisplay:
+        xs0 = [_fl(v) for v in starts]
+        known_x = xs0 + [_fl(s.x) for s in steps]
+        known_y = [_fl(v) for v in fstarts] + [_fl(s.fx) for s in steps]
+        core = xs0 + ([_fl(bracket[0]), _fl(bracket[1])] if bracket is not None else [])
+        lim = xlim if xlim is not None else auto_xlim(known_x, core=core)
+        if curve is not None:
+            cx, cy = curve
+        elif f is not None:
+            cx, cy = sample_curve(f, lim[0], lim[1], samples)
+        else:
+            cx, cy = _EMPTY, _EMPTY
+        ylim = _ylim(cy, [known_y[i] for i, x in enumerate(known_x) if lim[0] <= x <= lim[1]])
+        cur = steps[-1] if steps else None
+        npast = len(known_x) - (1 if cur is not None else 0)
+        d = cls(cx, cy, lim, ylim, np.array(known_x[:npast]), np.array(known_y[:npast]), index=len(steps),
+                label=label)
+        if cur is None:
+            d.title = f"{title}: the start{'s' if len(starts) > 1 else ''}. Press Step to take the first step."
+            if bracket is not None:
+                d.bracket_after = (_fl(bracket[0]), _fl(bracket[1]))
+        else:
+            d._add_step(cur, title)
+        d.offscreen = _offscreen(known_x[: npast + 1], lim, new=cur is not None)
+        return d
+
+    def _add_step(self, step: Any, title: str) -> None:
+        m = step.model
+        lo, hi = self.xlim
+        self.model_kind = m.kind
+        mx, my = m.curve(lo, hi, 200 if m.kind in ("inverse-parabola", "tangent-hyperbola") else 2)
+        self.model_x, self.model_y = np.asarray(mx, dtype=float), np.asarray(my, dtype=float)
+        anchors = {"tangent": lambda: [(m.x, m.y)], "tangent-hyperbola": lambda: [(m.x, m.y)],
+                   "chord": lambda: [(m.xa, m.ya), (m.xb, m.yb)],
+                   "inverse-parabola": lambda: list(zip(m.xs, m.ys))}.get(m.kind, list)()
+        self.anchor_x = np.array([_fl(a) for a, _ in anchors], dtype=float)
+        self.anchor_y = np.array([_fl(b) for _, b in anchors], dtype=float)
+        with np.errstate(all="ignore"):
+            try:
+                self.zero_x = _fl(m.predict())
+            except (ZeroDivisionError, ArithmeticError):
+                self.zero_x = math.nan
+        self.new_x, self.new_y = _fl(step.x), _fl(step.fx)
+        if step.bracket_before is not None:
+            self.bracket_before = (_fl(step.bracket_before[0]), _fl(step.bracket_before[1]))
+        if step.bracket is not None:
+            self.bracket_after = (_fl(step.bracket[0]), _fl(step.bracket[1]))
+        self.title = f"Step {step.index} of {title}: {step.reason}"
+
+    # -- drawing -------------------------------------------------------------------
+    def plot(self, ax: Any = None, *, legend: bool = True) -> StepDisplay:
+        """Draw on ``ax`` (a new figure if None); returns self. Artists are kept in ``lines_``.
+
+        ``legend=False`` leaves the legend out (the explorer shows its own, outside the figure).
+        """
+        from matplotlib.lines import Line2D
+        from matplotlib.patches import Rectangle
+
+        if ax is None:
+            from matplotlib.figure import Figure
+
+            ax = Figure(figsize=(7.0, 4.0), layout="constrained").add_subplot()
+        self.ax_, self.figure_ = ax, ax.figure
+        c = COLOURS
+        ax.axhline(0.0, color=c["grid"], lw=1.0, zorder=1)
+        a: dict[str, Any] = {}
+        trans = ax.get_xaxis_transform()
+        a["before"] = ax.add_patch(Rectangle((0, 0), 0, 1, transform=trans, color=c["bracket"], alpha=0.10, lw=0))
+        a["after"] = ax.add_patch(Rectangle((0, 0), 0, 1, transform=trans, color=c["bracket"], alpha=0.22, lw=0))
+        (a["curve"],) = ax.plot([], [], color=c["ink"], lw=1.6, zorder=3)
+        (a["model"],) = ax.plot([], [], color=c["model"], lw=1.5, ls=(0, (5, 2)), zorder=4)
+        (a["anchors"],) = ax.plot([], [], "o", mfc="white", mec=c["model"], mew=1.5, ms=7, zorder=5)
+        (a["past"],) = ax.plot([], [], "o", color=c["past"], ms=4, zorder=5)
+        (a["drop"],) = ax.plot([], [], color=c["new"], lw=1.0, ls=":", zorder=4)
+        (a["zero"],) = ax.plot([], [], "x", color=c["model"], ms=8, mew=2, zorder=6)
+        (a["new"],) = ax.plot([], [], "D", color=c["new"], ms=7, zorder=7)
+        a["title"] = ax.set_title("", fontsize=9, loc="left", color=c["ink"], y=1.0, pad=4)
+        a["note"] = ax.text(0.99, 0.02, "", transform=ax.transAxes, ha="right", va="bottom", fontsize=8,
+                            color=c["new"])
+        handles = [Line2D([], [], color=c["ink"], lw=1.6), Line2D([], [], color=c["model"], lw=1.5, ls="--"),
+                   Line2D([], [], marker="D", color=c["new"], ls=""), Line2D([], [], marker="o", color=c["past"], ls="")]
+        a["legend"] = None
+        if legend:
+            a["legend"] = ax.legend(handles, ["f(x)", "the step's model", "new point", "earlier points"],
+                                    fontsize=7.5, loc="upper center", bbox_to_anchor=(0.5, -0.115), ncol=4,
+                                    frameon=False)
+        _fixed_labels(ax, "x", 9)
+        ax.tick_params(labelsize=8)
+        self.lines_ = a
+        return self._apply(limits=True)
+
+    def update(self, other: StepDisplay) -> StepDisplay:
+        """Move the artists drawn by :meth:`plot` to ``other``'s data; returns self."""
+        if self.ax_ is None:
+            raise RuntimeError("update() needs a display that was plotted first; call plot() before update().")
+        limits = other.xlim != self.xlim or other.ylim != self.ylim
+        for name in self.__dataclass_fields__:
+            if not name.endswith("_"):
+                setattr(self, name, getattr(other, name))
+        return self._apply(limits=limits)
+
+    def _apply(self, *, limits: bool) -> StepDisplay:
+        a = self.lines_
+        a["curve"].set_data(self.curve_x, self.curve_y)
+        a["model"].set_data(self.model_x, self.model_y)
+        a["anchors"].set_data(self.anchor_x, self.anchor_y)
+        a["past"].set_data(self.past_x, self.past_y)
+        lo, hi = self.xlim
+        ymin, ymax = self.ylim
+        nx = min(max(self.new_x, lo), hi) if math.isfinite(self.new_x) else math.nan
+        ny = min(max(self.new_y, ymin), ymax) if math.isfinite(self.new_y) else math.nan
+        a["new"].set_data([nx], [ny])
+        a["new"].set_marker("D" if lo <= self.new_x <= hi else (">" if self.new_x > hi else "<"))
+        a["zero"].set_data([self.zero_x], [0.0])
+        a["drop"].set_data([self.zero_x, nx], [0.0, ny])
+        for key, br in (("before", self.bracket_before), ("after", self.bracket_after)):
+            a[key].set_x(br[0] if br else 0.0)
+            a[key].set_width(br[1] - br[0] if br else 0.0)
+        a["title"].set_text(_wrap(self.title, 95))
+        a["note"].set_text(self.offscreen)
+        if a["legend"] is not None:
+            a["legend"].get_texts()[1].set_text(MODEL_NAMES.get(self.model_kind, "the step's model"))
+        if limits:
+            self.ax_.set_xlim(*self.xlim)
+            self.ax_.set_ylim(*self.ylim)
+        return self
+
+    @classmethod
+    def empty(cls) -> StepDisplay:
+        """A display with no data (to plot first and :meth:`update` later)."""
+        return cls(_EMPTY, _EMPTY, (0.0, 1.0), (-1.0, 1.0), _EMPTY, _EMPTY)
+
+    def __repr__(self) -> str:
+        return f"<StepDisplay {self.label}: step {self.index}, model {self.model_kind or 'none'}>"
+
+
+def _nice_ceiling(v: float) -> float:
+    """The smallest of 1, 2, 5, 10, 20, 50, ... that is >= v (v > 0)."""
+    exp = 10.0 ** math.floor(math.log10(v))
+    return next(m * exp for m in (1, 2, 5, 10) if m * exp >= v)
+
+
+def _fixed_labels(ax: Any, xlabel: str, size: float) -> None:
+    """Put the axis labels at fixed places under the tick labels: no layout work on each redraw."""
+    ax.set_xlabel(xlabel, fontsize=size)
+    height_pt = ax.get_position().height * ax.figure.get_figheight() * 72
+    ax.xaxis.set_label_coords(0.5, -(1.7 * size + 5) / max(height_pt, 1.0))
+    ax.xaxis.label.set_verticalalignment("top")
+    ax.yaxis.set_label_coords(-0.08, 0.5)
+
+
+def _power_label(v: float, _pos: Any = None) -> str:
+    """Tick label of a log axis as plain text: 1e-08 -> '1e-8', 1 -> '1'."""
+    if not v > 0:
+        return ""
+    p = math.log10(v)
+    if abs(p - round(p)) > 1e-9:
+        return ""
+    return "1" if round(p) == 0 else f"1e{round(p)}"
+
+
+def _offscreen(xs: Sequence[float], lim: tuple[float, float], *, new: bool) -> str:
+    """A note on the points outside the x-range: the new point first, then how many others."""
+    out = [i for i, v in enumerate(xs) if not (math.isfinite(v) and lim[0] <= v <= lim[1])]
+    if not out:
+        return ""
+    parts = []
+    if new and out[-1] == len(xs) - 1:
+        v = xs[-1]
+        side = "→" if v > lim[1] else "←" if v < lim[0] else ""
+        parts.append(f"new point x = {v:.6g} is off the plot {side}".rstrip())
+        out = out[:-1]
+    if out:
+        parts.append(f"{len(out)} earlier point{'s' if len(out) > 1 else ''} off the plot")
+    return "; ".join(parts)
+
+
+def _wrap(text: str, width: int) -> str:
+    if len(text) <= width:
+        return text
+    cut = text.rfind(" ", 0, width)
+    cut = cut if cut > 0 else width
+    return text[:cut] + "\n" + _wrap(text[cut:].lstrip(), width)
+
+
+@dataclass
+class ProgressDisplay:
+    """Step sizes, |f| and errors of a run on a log scale, against iteration and against evaluations.
+
+    Attributes
+    ----------
+    k : iteration number of each iterate (starts are 0, -1, ...; step n is n).
+    evals : cumulative function evaluations when each iterate became known.
+    step : |x_k − x_(k−1)| (NaN for the first start).
+    resid : |f(x_k)|.
+    error : |x_k − r| when a reference root r is known (from an order estimate), else all NaN.
+    error_label : how the reference root was obtained.
+    """
+
+    k: FloatArray
+    evals: FloatArray
+    step: FloatArray
+    resid: FloatArray
+    error: FloatArray
+    error_label: str = ""
+    ax_: Any = field(default=None, init=False, repr=False)
+    figure_: Any = field(default=None, init=False, repr=False)
+    lines_: dict[str, Any] = field(default_factory=dict, init=False, repr=False)
+
+    @classmethod
+    def from_run(cls, run: Any, estimate: Any = None) -> ProgressDisplay:
+        """From a run (or the part of it up to a step); ``estimate`` (an OrderEstimate) supplies errors."""
+        xs = np.asarray(run.iterates, dtype=float)
+        n0 = len(run.starts)
+        k = np.arange(len(xs), dtype=float) - (n0 - 1)
+        step = np.concatenate([[np.nan], np.abs(np.diff(xs))]) if len(xs) else _EMPTY
+        resid = np.abs(np.asarray(run.values, dtype=float))
+        error = np.full(len(xs), np.nan)
+        label = ""
+        if estimate is not None and getattr(estimate, "root", None) is not None and len(estimate.errors) == len(xs):
+            error = np.asarray(estimate.errors, dtype=float)
+            label = f"error |xₖ − r|, r from {estimate.reference}"
+        return cls(k, np.asarray(run.evals_at_iterates, dtype=float), step, resid, error, label)
+
+    def plot(self, ax: Any = None, ax_evals: Any = None, *, legend: bool = True) -> ProgressDisplay:
+        """Draw against iteration on ``ax`` and against evaluations on ``ax_evals`` (new figure if None).
+
+        ``legend=False`` leaves the legend out (the explorer shows its own, outside the figure).
+        """
+        if ax is None or ax_evals is None:
+            from matplotlib.figure import Figure
+
+            fig = Figure(figsize=(4.0, 4.0), layout="constrained")
+            ax, ax_evals = fig.subplots(2, 1)
+        self.ax_, self.figure_ = ax, ax.figure
+        c = COLOURS
+        a: dict[str, Any] = {}
+        from matplotlib.ticker import FuncFormatter, LogLocator, MaxNLocator, NullFormatter
+
+        for where, axis in (("it", ax), ("ev", ax_evals)):
+            axis.set_yscale("log")
+            axis.yaxis.set_major_locator(LogLocator(base=10.0, numticks=5))
+            axis.yaxis.set_major_formatter(FuncFormatter(_power_label))  # plain text: cheaper than mathtext
+            axis.yaxis.set_minor_formatter(NullFormatter())
+            axis.xaxis.set_major_locator(MaxNLocator(integer=True, nbins=6))
+            axis.grid(True, which="major", color=c["grid"], lw=0.6)
+            axis.tick_params(labelsize=7.5)
+            (a[f"step_{where}"],) = axis.plot([], [], "o-", color=c["step"], ms=3, lw=1.2, label="step |xₖ − xₖ₋₁|")
+            (a[f"resid_{where}"],) = axis.plot([], [], "^-", color=c["resid"], ms=3, lw=1.0, label="|f(xₖ)|")
+            (a[f"error_{where}"],) = axis.plot([], [], "s-", color=c["error"], ms=3, lw=1.2, label="error |xₖ − r|")
+        for axis, text in ((ax, "iteration k"), (ax_evals, "function evaluations")):
+            _fixed_labels(axis, text, 8)
+        ax.set_title("How fast it closes in (log scale)", fontsize=9, loc="left", color=c["ink"], y=1.0, pad=4)
+        a["legend"] = None
+        if legend:
+            a["legend"] = ax_evals.legend(fontsize=7, loc="upper left", bbox_to_anchor=(-0.06, -0.3), ncol=3,
+                                          frameon=False, handlelength=1.5, columnspacing=0.8)
+        a["ax_evals"] = ax_evals
+        self.lines_ = a
+        return self._apply()
+
+    def update(self, other: ProgressDisplay) -> ProgressDisplay:
+        """Move the drawn artists to ``other``'s data; returns self."""
+        if self.ax_ is None:
+            raise RuntimeError("update() needs a display that was plotted first; call plot() before update().")
+        for name in ("k", "evals", "step", "resid", "error", "error_label"):
+            setattr(self, name, getattr(other, name))
+        return self._apply()
+
+    def _apply(self) -> ProgressDisplay:
+        a = self.lines_
+        for where, xs in (("it", self.k), ("ev", self.evals)):
+            for series in ("step", "resid", "error"):
+                ys = np.asarray(getattr(self, series), dtype=float)
+                a[f"{series}_{where}"].set_data(xs, np.where(ys > 0, ys, np.nan))
+        vals = [np.asarray(v, dtype=float) for v in (self.step, self.resid, self.error)]
+        pos = np.concatenate([v[np.isfinite(v) & (v > 0)] for v in vals])
+        if pos.size:  # whole decades, the bottom in steps of two: the ranges change seldom while stepping
+            top = math.ceil(math.log10(float(pos.max())) + 0.3)
+            bottom = 2 * math.floor((math.log10(float(pos.min())) - 0.3) / 2)
+            ylo, yhi = 10.0**bottom, 10.0 ** max(top, bottom + 1)
+        else:
+            ylo, yhi = 1e-16, 1.0
+        for axis, xs in ((self.ax_, np.asarray(self.k, float)), (a["ax_evals"], np.asarray(self.evals, float))):
+            lo, hi = (float(xs.min()), float(xs.max())) if len(xs) else (0.0, 1.0)
+            axis.set_xlim(lo - 0.5, _nice_ceiling(max(hi, lo + 1) + 0.5))
+            axis.set_ylim(ylo, yhi)
+        if a["legend"] is not None:
+            a["legend"].get_texts()[2].set_text("error |xₖ − r|" if self.error_label else "error (no root yet)")
+        return self
+
+    @classmethod
+    def empty(cls) -> ProgressDisplay:
+        """A display with no data (to plot first and :meth:`update` later)."""
+        return cls(_EMPTY, _EMPTY, _EMPTY, _EMPTY, _EMPTY)
+
+    def __repr__(self) -> str:
+        return f"<ProgressDisplay {len(self.k)} iterates>"
