@@ -24,7 +24,7 @@ __all__ = ["build_parser", "main"]
 
 PROG = "convdiag"
 
-_COMMANDS = ("_run", "_order", "_brackets", "_demo")
+_COMMANDS = ("_run", "_order", "_brackets", "_diagnose", "_demo")
 
 
 def build_parser() -> argparse.ArgumentParser:

@@ -1,12 +1,14 @@
-"""``convdiag run`` and ``convdiag methods``."""
+"""``convdiag run`` (with the diagnosis of the run) and ``convdiag methods``."""
 
 from __future__ import annotations
 
 import argparse
 import json
+import sys
 from typing import Any
 
 from ._common import function_arg, load_file_function, parse_params
+
 
 # -- commands ----------------------------------------------------------------------
 def _cmd_run(args: argparse.Namespace) -> int:
@@ -17,9 +19,14 @@ def _cmd_run(args: argparse.Namespace) -> int:
     start: Any = None
     if args.start:
         start = args.start if len(args.start) > 1 else args.start[0]
+    method: Any = args.method
+    if args.multiplicity is not None:
+        from ..core import METHODS
+
+        method = METHODS[args.method](multiplicity=args.multiplicity)  # type: ignore[call-arg]
     run = solve(
         f,
-        args.method,
+        method,
         start=start,
         bracket=args.bracket,
         fprime=fprime,
@@ -29,17 +36,28 @@ def _cmd_run(args: argparse.Namespace) -> int:
         max_time=args.max_time,
         digits=args.digits,
     )
+    from ..core._diagnose import diagnose
     from ..core._order import estimate_order, order_json
 
-    estimate = estimate_order(run, root=args.root)
+    diagnosis = diagnose(run, root=args.root)
+    try:
+        estimate = estimate_order(run, root=args.root)
+    except (TypeError, ValueError, ArithmeticError) as exc:  # a reference root that could not be computed
+        print(f"convdiag: note: no high-precision reference ({type(exc).__name__}: {exc}); the order is measured "
+              "from successive differences", file=sys.stderr)
+        estimate = estimate_order(run, root=args.root, reference="differences", replay=False)
     if args.json:
         out = run.to_dict()
         if args.root is not None:
             out["known_root"] = args.root
         measured = order_json(estimate)
         out.update({key: measured[key] for key in ("order", "rate", "multiplicity", "efficiency")})
+        out["verdict"] = diagnosis.verdict
+        out["findings"] = [f.to_dict() for f in diagnosis.findings]
+        out["probes"] = diagnosis.probes
         print(json.dumps(out, allow_nan=False))
     else:
+        from ..report._diagnosis_text import diagnosis_text
         from ..report._order_text import order_text
         from ..report._text import run_text
 
@@ -49,6 +67,8 @@ def _cmd_run(args: argparse.Namespace) -> int:
             print(f"\n|root − given root {args.root:.17g}| = {err:.3g}")
         print()
         print(order_text(estimate))
+        print()
+        print(diagnosis_text(diagnosis))
     return 0 if run.converged else 1
 
 
@@ -57,6 +77,10 @@ def _check_run(args: argparse.Namespace) -> str:
         return "run needs EXPR or --file PATH.py:FUNCTION"
     if args.expr and args.file:
         return "give EXPR or --file, not both"
+    if args.multiplicity is not None and args.method != "newton-m":
+        return "--multiplicity is a setting of --method newton-m"
+    if args.multiplicity is not None and args.multiplicity < 1:
+        return f"--multiplicity must be an int >= 1, got {args.multiplicity}"
     return ""
 
 
@@ -85,7 +109,7 @@ def _cmd_methods(args: argparse.Namespace) -> int:
 
 def register(sub: Any) -> None:
     """Add ``run`` and ``methods`` to the subcommand parsers."""
-    from ..core import METHODS
+    from ..core import METHODS, _modified  # noqa: F401  (_modified registers newton-m and newton-ratio)
 
     r = sub.add_parser(
         "run",
@@ -103,6 +127,8 @@ def register(sub: Any) -> None:
     r.add_argument("--max-evals", type=int, default=100, metavar="N", help="evaluation budget (default 100)")
     r.add_argument("--max-time", type=float, metavar="S", help="wall-time budget in seconds")
     r.add_argument("--digits", type=int, metavar="D", help="run in mpmath arithmetic with D digits")
+    r.add_argument("--multiplicity", type=int, metavar="M",
+                   help="multiplicity setting of --method newton-m (the root's multiplicity)")
     r.add_argument("--root", type=float, metavar="R", help="the true root, if known")
     r.add_argument("--json", action="store_true", help="print one JSON object")
     r.set_defaults(func=_cmd_run, check=_check_run)

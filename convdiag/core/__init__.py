@@ -6,8 +6,11 @@ nothing here prints.
 """
 
 from . import _hybrid as _hybrid  # registers the "hybrid" method
+from . import _modified as _modified  # registers "newton-m" and "newton-ratio"
 from ._basin import BasinMap, basin_map
 from ._brackets import BracketSearch, Candidate, find_brackets
+from ._diagnose import PRECEDENCE, Diagnosis, diagnose
+from ._findings import Finding, Remedy
 from ._methods import (
     METHODS,
     Bisection,
@@ -21,6 +24,7 @@ from ._methods import (
     register,
 )
 from ._models import Chord, InverseParabola, LocalModel, Midpoint, Tangent, TangentHyperbola
+from ._modified import ModifiedNewton, NewtonRatio
 from ._order import Comparison, MethodResult, OrderEstimate, compare_methods, estimate_order, order_json
 from ._problem import Problem, as_problem
 from ._record import EvalLog, Recorder, record
@@ -36,6 +40,7 @@ __all__ = [
     "CONVERGED",
     "METHODS",
     "OUTCOMES",
+    "PRECEDENCE",
     "STOP_REASONS",
     "BasinMap",
     "Bisection",
@@ -43,8 +48,10 @@ __all__ = [
     "Candidate",
     "Chord",
     "Comparison",
+    "Diagnosis",
     "EvalLog",
     "Failure",
+    "Finding",
     "Halley",
     "Halt",
     "Illinois",
@@ -56,13 +63,16 @@ __all__ = [
     "Method",
     "MethodResult",
     "Midpoint",
+    "ModifiedNewton",
     "Newton",
+    "NewtonRatio",
     "OrderEstimate",
     "ParamGrid",
     "Problem",
     "Recorder",
     "ReferenceRoot",
     "RegulaFalsi",
+    "Remedy",
     "Run",
     "Secant",
     "Session",
@@ -78,6 +88,7 @@ __all__ = [
     "basin_map",
     "classify_run",
     "compare_methods",
+    "diagnose",
     "estimate_order",
     "find_brackets",
     "load_sequence",

@@ -5,6 +5,7 @@ HTML formatters of core results. Figures import matplotlib when drawn.
 """
 
 from . import _brackets_text as _brackets_text  # noqa: F401
+from . import _diagnosis_text as _diagnosis_text  # noqa: F401
 from . import _order_text as _order_text  # noqa: F401
 from . import _sweep_text as _sweep_text  # noqa: F401  (also installs the text progress bar)
 from . import _text as _text  # noqa: F401  (registers formatters)

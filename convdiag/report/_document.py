@@ -231,7 +231,7 @@ def _settings_rows(run: Any) -> list[list[str]]:
 def _run_sections(run: Any, name: str, diagnosis: Any = None) -> list[Section]:
     from ..core._order import estimate_order
     from ._order_text import order_html, order_text
-    from ._step_figures import ProgressDisplay, StepDisplay
+    from ._step_figures import ProgressDisplay
     from ._text import html_table, run_html, run_rows
 
     sections: list[Section] = []
@@ -248,7 +248,7 @@ def _run_sections(run: Any, name: str, diagnosis: Any = None) -> list[Section]:
     figures: list[Figure] = []
     if run.source is not None and (run.steps or run.starts):
         def draw_step(fig: Any) -> None:
-            StepDisplay.from_run(run).plot(fig.add_subplot(1, 1, 1))
+            _draw_run_step(run, fig.add_subplot(1, 1, 1))
 
         figures.append(Figure(f"{name}-function", render_png(draw_step), "f near the iterates, with the last step's local model."))
     sections.append(
@@ -277,6 +277,34 @@ def _run_sections(run: Any, name: str, diagnosis: Any = None) -> list[Section]:
     if diagnosis is not None:
         sections.append(Section("Diagnosis", _pre_md(diagnosis.to_text()), diagnosis.to_html()))
     return sections
+
+
+def _draw_run_step(run: Any, ax: Any) -> None:
+    """The last step with its model; a failed evaluation is marked where it happened."""
+    import math
+
+    from ._step_figures import StepDisplay, auto_xlim
+
+    failure = run.failure
+    fx = failure.x if failure is not None and failure.x is not None and math.isfinite(failure.x) else None
+    xlim = None
+    if fx is not None:
+        known = [float(v) for v in run.iterates if math.isfinite(v)]
+        xlim = auto_xlim(known + [fx], core=known + [fx])
+    d = StepDisplay.from_run(run, xlim=xlim)
+    if not run.steps:
+        d.title = f"{run.method_title}: the start{'s' if len(run.starts) > 1 else ''}"
+    d.plot(ax)
+    if fx is not None:
+        ax.axvline(fx, color="#b3261e", ls=":", lw=1.3, zorder=2)
+        ax.annotate(
+            f"f failed at x = {fx:.4g}\n({failure.reason})",
+            xy=(fx, 0.0),
+            xytext=(6, 10),
+            textcoords="offset points",
+            fontsize=8,
+            color="#b3261e",
+        )
 
 
 def _diagnose(run: Any) -> Any:

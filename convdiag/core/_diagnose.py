@@ -1,0 +1,394 @@
+"""Why a solver stalls: one verdict, the findings behind it, the evidence, and a fix.
+
+:func:`diagnose` reads what a solver did (a run of convdiag's own methods, a
+recording of any third-party solver, or a plain sequence of iterates and/or
+residuals from a log file), measures the order of convergence, makes a few
+extra evaluations of f when it has f, and names the cause.
+
+Findings (each detector states its rule and thresholds in its module):
+
+=======================  ============================================  =====================
+kind                     what it means                                 module
+=======================  ============================================  =====================
+converged                the run met its rule (also: to a root other   ``_detect_done``
+                         than the one nearest the start)
+cycle                    the iterates repeat with period p             ``_detect_path``
+divergence               iterates or steps grow without bound, or      ``_detect_path``
+                         drift away while f decays (false convergence)
+domain-error             f raised or returned NaN; where the domain    ``_detect_path``
+                         ends
+flat                     a near-zero slope threw the iterate away, a   ``_detect_flat``,
+                         stationary point, or f ≡ 0 on a stretch       ``_detect_probe``
+pole                     the sign change is a pole or jump, not a root ``_detect_probe``
+wrong-derivative         your f' disagrees with the slope of f, or a   ``_detect_slope``,
+                         derivative method is linear at a simple root  ``_detect_rate``
+multiple-root            linear rate (m−1)/m and f' → 0: multiplicity  ``_detect_rate``
+noise-floor              f is noisy; the iterates wander within        ``_detect_probe``
+                         noise/|f'| of the root
+unattainable-tolerance   the tolerance is below what doubles allow     ``_detect_probe``
+slow                     linear, slower than bisection per evaluation  ``_detect_rate``
+budget                   the budget ran out while still converging     ``_detect_rate``
+=======================  ============================================  =====================
+
+The input is read by ``_detect_trace`` (runs, recordings, sequences; the
+budgeted prober), ``_detect_stop`` says when an iteration counts as converged, and
+remedies that need a bracket come from ``_detect_advice``.
+
+**Precedence of the verdict.** The verdict is the first kind in ``PRECEDENCE``
+among the findings. The order puts first what makes the result wrong or
+absent (the iterates escaped, f could not be evaluated, the "root" is a pole,
+the iteration cycles or hit a flat spot), then what explains slow or limited
+convergence from the most specific cause to the most generic (a wrong
+derivative explains a linear rate better than anything else; a multiple root
+explains a linear rate; noise explains a stall at a level; an unattainable
+tolerance a stall at rounding level; slowness is generic; a budget is only the
+symptom), and "converged" last. When the run converged, findings that only
+describe its path (a long step from a small slope, a failed evaluation it got
+past, a stop at the noise floor within its own tolerance) do not override
+"converged".
+
+Once the path shows that the iterates do not converge to a root (divergence, a
+pole, a cycle, a stationary point, no sign change, or a failed evaluation the run
+did not get past), the rate-based detectors are skipped: a rate measured on such
+a path describes no root.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable
+from dataclasses import dataclass, field
+from typing import Any
+
+from ..errors import ParameterError
+from . import _modified  # noqa: F401  (registers newton-m and newton-ratio, the multiple-root cures)
+from ._findings import Finding, Remedy
+from ._show import Showable
+
+__all__ = ["PRECEDENCE", "Diagnosis", "Finding", "Remedy", "diagnose"]
+
+PRECEDENCE = (
+    "divergence",
+    "domain-error",
+    "pole",
+    "cycle",
+    "flat",
+    "wrong-derivative",
+    "multiple-root",
+    "noise-floor",
+    "unattainable-tolerance",
+    "slow",
+    "budget",
+    "converged",
+)
+#: (kind, tag) pairs that do not override a run that converged by its own rule
+_PATH_ONLY = {("flat", "small slope"), ("domain-error", None), ("noise-floor", None)}
+
+
+@dataclass(frozen=True, repr=False)
+class Diagnosis(Showable):
+    """What stalled a solver, why, and what to change.
+
+    Attributes
+    ----------
+    verdict : the primary finding's kind (see ``PRECEDENCE``).
+    findings : every finding, the primary one first.
+    order : the observed order of convergence (:class:`~convdiag.core._order.OrderEstimate`), or None.
+    probes : extra evaluations of f the diagnosis made (noise, derivative check, bracket search, ...).
+    source_kind : "run", "recording" or "sequence".
+    label : what was diagnosed.
+    method : the method that ran (inferred for a recording when it shows), or None.
+    evaluations : evaluations the solver made (None for a sequence without counts).
+    root : the best iterate (smallest |f|), or None.
+    notes : anything else worth knowing.
+    subject : what was diagnosed (the Run, Recorder, EvalLog or sequence), for reports and views.
+    """
+
+    verdict: str
+    findings: tuple[Finding, ...]
+    order: Any
+    probes: int
+    source_kind: str
+    label: str
+    method: str | None
+    evaluations: int | None
+    root: float | None
+    notes: tuple[str, ...] = ()
+    subject: Any = field(default=None, compare=False, repr=False)
+
+    @property
+    def run(self) -> Any:
+        """The diagnosed :class:`~convdiag.core._run.Run`, or None for recordings and sequences."""
+        return self.subject if type(self.subject).__name__ == "Run" else None
+
+    @property
+    def primary(self) -> Finding:
+        return self.findings[0]
+
+    @property
+    def remedy(self) -> Remedy | None:
+        """The primary finding's remedy (None when no automatic change fits)."""
+        return self.primary.remedy
+
+    def finding(self, kind: str) -> Finding | None:
+        """The first finding of this kind, or None."""
+        return next((f for f in self.findings if f.kind == kind), None)
+
+    @property
+    def kinds(self) -> tuple[str, ...]:
+        return tuple(f.kind for f in self.findings)
+
+    def to_dict(self) -> dict[str, Any]:
+        """JSON-ready: ``verdict``, ``findings`` (each with ``kind``, ``evidence``, ``advice``, ...) and more."""
+        from ._order import order_json
+
+        return {
+            "verdict": self.verdict,
+            "findings": [f.to_dict() for f in self.findings],
+            "source": self.source_kind,
+            "label": self.label,
+            "method": self.method,
+            "evaluations": self.evaluations,
+            "probes": self.probes,
+            "root": self.root if self.root is not None and math.isfinite(self.root) else None,
+            "order": None if self.order is None else order_json(self.order),
+            "notes": list(self.notes),
+        }
+
+    def __repr__(self) -> str:
+        tag = f" ({self.primary.tag})" if self.primary.tag else ""
+        ev = f", {self.evaluations} evaluations" if self.evaluations is not None else ""
+        return f"<Diagnosis {self.method or self.source_kind}: {self.verdict}{tag}{ev}>"
+
+
+def _check(source: Any, xtol: Any, ftol: Any, method: Any, root: Any, max_probe_evals: Any, bracket: Any) -> None:
+    from ._methods import METHODS
+
+    owner = "diagnose"
+    for name, v in (("xtol", xtol), ("ftol", ftol)):
+        bad = isinstance(v, bool) or not isinstance(v, (int, float)) or not (v >= 0 and math.isfinite(v))
+        if v is not None and bad:
+            raise ParameterError.expected(name, owner, "a finite float >= 0 or None", v)
+    if method is not None and method not in METHODS:
+        raise ParameterError.expected("method", owner, f"one of {', '.join(sorted(METHODS))} or None", method)
+    if root is not None and (isinstance(root, bool) or not isinstance(root, (int, float)) or not math.isfinite(root)):
+        raise ParameterError.expected("root", owner, "a finite float or None", root)
+    if isinstance(max_probe_evals, bool) or not isinstance(max_probe_evals, int) or max_probe_evals < 0:
+        raise ParameterError.expected("max_probe_evals", owner, "an int >= 0", max_probe_evals)
+    if bracket is not None and (not isinstance(bracket, (tuple, list)) or len(bracket) != 2
+                                or not all(isinstance(v, (int, float)) and math.isfinite(v) for v in bracket)
+                                or not bracket[0] < bracket[1]):
+        raise ParameterError.expected("bracket", owner, "a pair (lo, hi) of finite floats with lo < hi", bracket)
+
+
+def _order_estimate(t: Any, root: float | None, probe: bool, notes: list[str]) -> Any:
+    """The observed order (never raises: a failure becomes a note)."""
+    import numpy as np
+
+    from ._order import estimate_order
+    from ._sequence import IterationSequence
+
+    try:
+        if t.kind == "run":
+            # no high-precision replay: the detectors read linear rates and the run's own errors, which the run
+            # has in plenty; a replay costs up to three more runs at 60-540 digits
+            return estimate_order(t.order_source, root=root, replay=False)
+        if t.kind == "recording":
+            ref: Any = root
+            if ref is None and probe and t.problem is not None and t.n:
+                ref = _reference(t, notes)
+            seq = IterationSequence(t.xs, t.fs, t.evals, method=t.method if not t.method_inferred or
+                                    t.brackets is None else None, label=t.label)
+            return estimate_order(seq, root=ref, evals_per_step=None)
+        seq = t.order_source
+        if t.n == 0 and t.fs is not None:
+            return estimate_order(seq, root=root, method=t.method, reference="residuals")
+        xs = np.asarray(t.xs)
+        if not np.all(np.isfinite(xs)):
+            keep = int(np.argmax(~np.isfinite(xs)))
+            if keep < 3:
+                notes.append("too few finite iterates for an order of convergence")
+                return None
+            seq = IterationSequence(xs[:keep], None if t.fs is None else t.fs[:keep], None if t.evals is None
+                                    else t.evals[:keep], method=t.method, label=t.label)
+        return estimate_order(seq, root=root, method=t.method)
+    except Exception as exc:  # noqa: BLE001 - the order is evidence, not a requirement
+        notes.append(f"no order of convergence: {type(exc).__name__}: {str(exc)[:160]}")
+        return None
+
+
+def _reference(t: Any, notes: list[str]) -> Any:
+    """A high-precision root for a recording whose function computes in mpmath (else None)."""
+    from ._reference import reference_root
+
+    try:
+        ref = reference_root(t.problem, float(t.xs[t.best_index()]))
+    except Exception:  # noqa: BLE001 - the callable does not compute in mpmath: no reference, no loss
+        return None
+    if ref.confirmed and abs(ref.float_value - float(t.xs[t.best_index()])) <= 1e-6 * max(1.0, abs(ref.float_value)):
+        notes.append(f"high-precision reference root {ref.summary}")
+        return ref
+    return None
+
+
+def diagnose(
+    source: Any,
+    *,
+    f: Any = None,
+    fprime: Any = None,
+    root: float | None = None,
+    xtol: float | None = None,
+    ftol: float | None = None,
+    method: str | None = None,
+    bracket: tuple[float, float] | None = None,
+    probe: bool = True,
+    max_probe_evals: int = 60,
+) -> Diagnosis:
+    """Name why a solver stalled (or confirm that it converged), with the evidence and a fix.
+
+    Parameters
+    ----------
+    source : Run, Recorder, EvalLog, IterationSequence, list, array or mapping
+        A run of convdiag's methods; a recording of any solver (``convdiag.record(f)`` handed
+        to scipy or your own loop); or iterates and/or residuals (see ``as_sequence``).
+    f, fprime : callable or expression string, optional
+        The function (and the derivative you gave the solver), for a sequence or an EvalLog,
+        so that the diagnosis can make a few extra evaluations. A run and a recording carry
+        their own.
+    root : float, optional
+        The true root, if known.
+    xtol, ftol : float, optional
+        The step (absolute) and residual tolerances the solver was asked for; a run carries
+        its own (these override it).
+    method : str, optional
+        The method that produced a plain sequence or recording (for its rate laws).
+    bracket : (lo, hi), optional
+        Where you expected the root; a root found outside is reported.
+    probe : bool
+        Allow extra evaluations of f (noise level, derivative check, pole refinement, domain
+        edge, bracket search for the remedy, a high-precision reference for a recording).
+    max_probe_evals : int
+        At most this many extra evaluations (``Diagnosis.probes`` reports how many were made).
+
+    Returns
+    -------
+    Diagnosis
+        ``verdict``, ``findings`` (kind, summary, evidence, advice, remedy), ``order``.
+
+    Raises
+    ------
+    ParameterError
+        A bad argument, or a sequence with fewer than 3 entries.
+
+    Examples
+    --------
+    >>> from convdiag import solve
+    >>> d = diagnose(solve("x**3 - 2*x + 2", "newton", start=0.0, max_evals=20))
+    >>> d
+    <Diagnosis newton: cycle (period 2), 20 evaluations>
+    >>> d.primary.value("period"), d.remedy.method
+    (2, 'hybrid')
+    >>> d.remedy.solve("x**3 - 2*x + 2").converged
+    True
+    """
+    import numpy as np
+
+    from ._detect_done import detect_converged
+    from ._detect_flat import detect_flat
+    from ._detect_path import Context, detect_cycle, detect_divergence, detect_domain_error
+    from ._detect_probe import detect_flat_zero, detect_noise, detect_pole, detect_unattainable
+    from ._detect_rate import detect_budget, detect_multiple_root, detect_rate_derivative, detect_slow
+    from ._detect_slope import check_derivative
+    from ._detect_trace import Prober, build_trace, trace_converged
+
+    _check(source, xtol, ftol, method, root, max_probe_evals, bracket)
+    t = build_trace(source, f=f, fprime=fprime, method=method, xtol=xtol, ftol=ftol)
+    notes: list[str] = list(t.notes)
+    prober = Prober(t.f, max_probe_evals, enabled=probe)
+    ctx = Context(prober, root=root, bracket=None if bracket is None else (float(bracket[0]), float(bracket[1])),
+                  notes=notes)
+    ctx.order_fn = lambda: _order_estimate(t, root, probe, notes)
+    found: list[Finding] = []
+
+    def run(detector: Callable[[Any, Any], Finding | None]) -> Finding | None:
+        try:
+            with np.errstate(all="ignore"):  # overflow and 0/0 in the user's numbers are evidence, not errors
+                res = detector(t, ctx)
+        except ParameterError:
+            raise
+        except Exception as exc:  # noqa: BLE001 - one detector's trouble must not lose the others' findings
+            notes.append(f"{detector.__name__} could not finish: {type(exc).__name__}: {str(exc)[:120]}")
+            return None
+        if res is not None:
+            found.append(res)
+        return res
+
+    done = trace_converged(t)
+    run(check_derivative)
+    escaped = run(detect_divergence)
+    failed = run(detect_domain_error)
+    pole = run(detect_pole)
+    cyc = run(detect_cycle)
+    broken = escaped is not None or pole is not None or cyc is not None or (failed is not None and not done)
+    if not broken:
+        run(detect_noise)
+    if escaped is None:
+        flat = run(detect_flat) or run(detect_flat_zero)
+        broken = broken or (flat is not None and flat.tag in ("stationary point", "zero slope", "no sign change"))
+    if broken:
+        notes.append("the order of convergence was not measured: the iterates do not converge to a root")
+    else:
+        run(detect_multiple_root)
+        if not any(x.kind == "wrong-derivative" for x in found):
+            run(detect_rate_derivative)
+        if not any(x.kind == "noise-floor" for x in found):  # the noise finding already names the attainable tolerance
+            run(detect_unattainable)
+        if not any(x.kind in ("multiple-root", "wrong-derivative") for x in found):
+            run(detect_slow)
+        if not any(x.kind == "noise-floor" for x in found):
+            run(detect_budget)
+    conv = run(detect_converged) if escaped is None and pole is None else None
+    if not found:
+        found.append(_unexplained(t))
+    converged = conv is not None and trace_converged(t)
+    verdict = _verdict(found, converged)
+    ordered = sorted(found, key=lambda x: (x.kind != verdict, PRECEDENCE.index(x.kind)))
+    return Diagnosis(
+        verdict=verdict,
+        findings=tuple(ordered),
+        order=ctx.order_if_measured,
+        probes=prober.count,
+        source_kind=t.kind,
+        label=t.label,
+        method=t.method,
+        evaluations=t.total_evals,
+        root=float(t.xs[t.best_index()]) if t.n else None,
+        notes=tuple(dict.fromkeys(notes)),
+        subject=source,
+    )
+
+
+def _verdict(found: list[Finding], converged: bool) -> str:
+    for kind in PRECEDENCE:
+        for x in found:
+            if x.kind != kind:
+                continue
+            if converged and ((x.kind, x.tag) in _PATH_ONLY or (x.kind, None) in _PATH_ONLY):
+                continue
+            return kind
+    return "converged" if converged else found[0].kind
+
+
+def _unexplained(t: Any) -> Finding:
+    """No detector fired on a run that did not converge: say so, as a budget finding."""
+    stop = t.stop_reason or "the end of the sequence"
+    return Finding(
+        "budget",
+        f"The solver stopped ({stop}) without converging, and none of the known patterns (cycle, divergence, "
+        "multiple root, noise, pole, flat spot) shows in its iterates.",
+        (("iterates", t.n, ""), ("stop", stop, "")),
+        "Look at the iterates and f near them; try a bracketing method (hybrid) on a bracket from "
+        "convdiag.find_brackets.",
+        Remedy("hybrid", near=float(t.xs[0]) if t.n else 0.0, note="a bracket searched near the start"),
+        (), tag="no pattern",
+    )

@@ -1,0 +1,41 @@
+"""Remedies that need a bracket: found near a point on the probe budget, with a tolerance that can close.
+
+Roots: the real cube root and arctan vanish at 0 (exact); √x − 2 vanishes at 4, which is a double
+the bracket search can land on exactly (√4 = 2 in floating point, IEEE 754 correctly rounded sqrt).
+"""
+
+import math
+
+import pytest
+
+from convdiag import solve
+from convdiag.core._diagnose import diagnose
+
+
+def test_a_root_at_zero_gets_an_absolute_tolerance_so_the_bracket_can_close():
+    # with only a relative tolerance 4·eps·|x| a bracket around 0 would have to shrink below 1e-300
+    d = diagnose(solve("cbrt(x)", "newton", start=1.0))
+    r = d.remedy
+    assert r.method == "hybrid" and r.bracket[0] <= 0.0 <= r.bracket[1]
+    assert r.xtol == pytest.approx(4 * 2.220446049250313e-16)  # 4 eps × max(1, |start|)
+    cured = r.solve("cbrt(x)")
+    assert cured.converged and abs(cured.root) <= r.xtol
+
+
+def test_a_search_that_lands_on_the_root_starts_newton_there():
+    def f(x):
+        return math.sqrt(x) - 2
+
+    d = diagnose(solve(f, "newton", start=20.0, fprime=lambda x: 0.5 / math.sqrt(x)))
+    r = d.remedy
+    assert r.method == "newton" and r.start == (4.0,)  # the search from 20 evaluated f exactly at 4
+    cured = r.solve(f)
+    assert cured.converged and cured.root == 4.0
+
+
+def test_the_bracket_search_is_shared_between_findings_and_counted():
+    d = diagnose(solve("atan(x)", "newton", start=1.5), max_probe_evals=60)
+    assert d.remedy.bracket is not None and 0 < d.probes <= 60
+    again = diagnose(solve("atan(x)", "newton", start=1.5), max_probe_evals=5)
+    assert again.remedy.bracket is None and again.remedy.near == 1.5  # no budget: searched when applied
+    assert again.remedy.solve("atan(x)").converged

@@ -1,0 +1,69 @@
+"""The derivative check: your f' against the slope of f, and what a wrong one does to Newton.
+
+Newton with a slope g ≠ f' converges linearly with rate |1 − f'(r)/g(r)| (shared/REFERENCES.md §1
+[V]). The slope of f is checked against math.sin/math.exp closed forms; the root of cos x − x is
+0.7390851332151607 (mpmath.findroot).
+"""
+
+import math
+
+import pytest
+
+from convdiag import solve
+from convdiag.core._diagnose import diagnose
+
+
+@pytest.mark.parametrize(
+    "name, fprime, ratio",
+    [
+        ("twice the slope", lambda x: 2 * (-math.sin(x) - 1), 2.0),
+        ("sign error in one term", lambda x: math.sin(x) - 1, None),
+    ],
+)
+def test_a_wrong_user_derivative_is_flagged_with_where_and_how_much(name, fprime, ratio):
+    f = lambda x: math.cos(x) - x
+    d = diagnose(solve(f, "newton", start=1.0, fprime=fprime))
+    w = d.finding("wrong-derivative")
+    assert d.verdict == "wrong-derivative" and w is not None
+    rows = [r for r in w.evidence if r[0].startswith("f' at x = ")]
+    assert rows and all(abs(g - s) > 0.1 * abs(s) for _, (_, g, s), _ in rows)
+    # the slope of f where it was checked is the true f' = −sin x − 1 (to the difference error)
+    for _, (x, g, s), _ in rows:
+        assert s == pytest.approx(-math.sin(x) - 1, rel=1e-6)
+        assert g == fprime(x)
+        if ratio is not None:
+            assert g / s == pytest.approx(ratio, rel=1e-6)
+    cured = w.remedy.solve(f, fprime=fprime)
+    assert w.remedy.drop_fprime and cured.converged and abs(cured.root - 0.7390851332151607) < 1e-15
+
+
+def test_the_rate_of_newton_with_twice_the_slope_is_one_half():
+    # rate |1 − f'/g| = 1/2 for g = 2f' (REFERENCES §1)
+    f = lambda x: math.cos(x) - x
+    d = diagnose(solve(f, "newton", start=1.0, fprime=lambda x: 2 * (-math.sin(x) - 1)))
+    assert d.order is not None and d.order.rate == pytest.approx(0.5, abs=0.01)
+    assert "rate |1 − f'/g|" in d.primary.summary
+
+
+def test_the_right_derivative_is_not_flagged():
+    f = lambda x: math.cos(x) - x
+    d = diagnose(solve(f, "newton", start=1.0, fprime=lambda x: -math.sin(x) - 1))
+    assert d.kinds == ("converged",)
+    assert any("agrees with the slope of f" in n for n in d.notes)
+
+
+def test_a_wrong_derivative_in_an_expression_is_flagged_through_the_complex_step():
+    d = diagnose(solve("exp(x) - 2 - x/3", "newton", start=1.0, fprime="2*exp(x)"))
+    w = d.primary
+    assert d.verdict == "wrong-derivative" and "complex step" in w.evidence[0][2]
+    x, g, s = w.evidence[0][1]
+    assert x == 1.0 and g == pytest.approx(2 * math.e)
+    assert s == pytest.approx(math.exp(1.0) - 1 / 3, rel=1e-12)  # f'(1) = e − 1/3 at the start x = 1
+
+
+def test_a_sequence_with_the_function_and_derivative_gets_the_same_check():
+    f = lambda x: math.cos(x) - x
+    g = lambda x: 2 * (-math.sin(x) - 1)
+    run = solve(f, "newton", start=1.0, fprime=g, max_evals=30)
+    d = diagnose(run.iterates.tolist(), f=f, fprime=g, method="newton")
+    assert d.verdict == "wrong-derivative" and d.source_kind == "sequence" and d.probes > 0
