@@ -31,9 +31,11 @@ def cluster_roots(x: Arr, fx: Arr, converged: Arr, *, tol: float = 1e-6) -> tupl
     """Group converged lanes whose roots agree within ``tol·max(1, max|root|)`` and number the groups.
 
     Returns the roots (one per group: the member with the smallest |f|, ordered by real then
-    imaginary part) and, per lane, the group number (-1 where the lane did not converge). Groups
-    are found one pass per root (basins have few roots); past 64 groups the rest are grouped by
-    rounding to the tolerance.
+    imaginary part) and, per lane, the group number (-1 where the lane did not converge). The
+    grouping is greedy in lane order: the first lane not yet grouped starts a group, which takes
+    every later lane within the tolerance of it that no earlier group took. Lanes are compared
+    block by block (basins have few roots); past 64 groups the rest are grouped by rounding to
+    the tolerance.
 
     Examples
     --------
@@ -52,32 +54,63 @@ def cluster_roots(x: Arr, fx: Arr, converged: Arr, *, tol: float = 1e-6) -> tupl
     xs, fs = (x, fx) if whole else (x[at], fx[at])
     q = tol * max(1.0, float(np.max(np.abs(xs))))
     label = np.full(at.size, -1, np.int64)
-    best: list[int] = []
-    rest: Arr | None = None  # None: every lane is still unassigned
-    while (rest is None or rest.size) and len(best) < 64:
-        cand = xs if rest is None else xs[rest]
-        near = np.abs(cand - cand[0]) <= q
-        members = np.flatnonzero(near) if rest is None else rest[near]
-        label[members] = len(best)
-        best.append(int(members[np.argmin(np.abs(fs[members]))]))
-        rest = np.flatnonzero(~near) if rest is None else rest[~near]
-    if rest is not None and rest.size:  # many distinct roots: cells of the tolerance grid
-        af = np.abs(fs)
-        v = xs[rest]
-        keys = np.stack([np.round(v.real / q), np.round(v.imag / q)], axis=1) if v.dtype.kind == "c" else \
-            np.round(v / q)[:, None]
-        _, cell = np.unique(keys, axis=0, return_inverse=True)
-        cell = cell.ravel()
-        order = np.lexsort((af[rest], cell))
-        first = order[np.r_[True, cell[order][1:] != cell[order][:-1]]]
-        label[rest] = len(best) + cell
-        best += rest[first].tolist()
+    seeds: list[Any] = []  # each group's first lane's root
+    best: list[int] = []  # each group's member with the smallest |f| (the first such)
+    least: list[float] = []
+    over: list[Arr] = []  # lanes left when 64 groups exist
+    for lo in range(0, xs.size, _CLUSTER_BLOCK):
+        xb, fb = xs[lo:lo + _CLUSTER_BLOCK], fs[lo:lo + _CLUSTER_BLOCK]
+        rest: Arr | None = None  # None: every lane of the block is still unassigned
+        j = 0
+        while rest is None or rest.size:
+            cand = xb if rest is None else xb.take(rest)
+            if j == len(seeds):
+                if j == 64:
+                    break
+                seeds.append(cand[0])
+                best.append(-1)
+                least.append(np.inf)
+            near = np.abs(cand - seeds[j]) <= q
+            members = np.flatnonzero(near)
+            if members.size:
+                if rest is not None:
+                    members = rest.take(members)
+                label[lo + members] = j
+                af = np.abs(fb.take(members))
+                k = int(np.argmin(af))
+                if af[k] < least[j]:
+                    best[j], least[j] = lo + int(members[k]), float(af[k])
+                rest = np.flatnonzero(~near) if rest is None else rest[~near]
+            j += 1
+        if rest is not None and rest.size:
+            over.append(lo + rest)
+        elif rest is None:
+            over.append(lo + np.arange(xb.size))
+    if over:  # many distinct roots: cells of the tolerance grid
+        _cells(xs, fs, q, np.concatenate(over), label, best)
     roots = xs[np.asarray(best, dtype=np.int64)]
     rank = np.lexsort((roots.imag, roots.real)) if roots.dtype.kind == "c" else np.argsort(roots, kind="stable")
     number = np.empty_like(rank)
     number[rank] = np.arange(rank.size)
     ids[at] = number[label]
     return roots[rank], ids
+
+
+_CLUSTER_BLOCK = 65536
+
+
+def _cells(xs: Arr, fs: Arr, q: float, rest: Arr, label: Arr, best: list[int]) -> None:
+    """Group the lanes ``rest`` by rounding their roots to multiples of ``q`` (new groups after ``best``)."""
+    af = np.abs(fs)
+    v = xs[rest]
+    keys = np.stack([np.round(v.real / q), np.round(v.imag / q)], axis=1) if v.dtype.kind == "c" else \
+        np.round(v / q)[:, None]
+    _, cell = np.unique(keys, axis=0, return_inverse=True)
+    cell = cell.ravel()
+    order = np.lexsort((af[rest], cell))
+    first = order[np.r_[True, cell[order][1:] != cell[order][:-1]]]
+    label[rest] = len(best) + cell
+    best += rest[first].tolist()
 
 
 @dataclass(frozen=True, repr=False)
@@ -193,7 +226,6 @@ def basin_map(
     max_steps: int | None = None,
     variable: str = "x",
     root_tol: float = 1e-6,
-    exact: bool = True,
 ) -> BasinMap:
     """Run a method from every start of a grid and map where each one ends up.
 
@@ -209,7 +241,7 @@ def basin_map(
         imaginary part im_lo + i·(im_hi - im_lo)/(rows - 1).
     starts : array_like, optional
         Any array of starts instead of a grid.
-    fprime, fprime2, params, xtol, rtol, ftol, max_evals, max_steps, variable, exact
+    fprime, fprime2, params, xtol, rtol, ftol, max_evals, max_steps, variable
         As for :func:`~convdiag.core._vector.solve_many` (and :func:`convdiag.solve`).
     root_tol : float
         Roots within ``root_tol·max(1, max|root|)`` of each other are the same root.
@@ -238,7 +270,7 @@ def basin_map(
     grid, kind, extent = _grid(interval, rectangle, shape, starts)
     lanes = solve_many(
         f, method, starts=grid, fprime=fprime, fprime2=fprime2, params=params, xtol=xtol, rtol=rtol, ftol=ftol,
-        max_evals=max_evals, max_steps=max_steps, variable=variable, exact=exact,
+        max_evals=max_evals, max_steps=max_steps, variable=variable,
     )
     roots, ids = cluster_roots(lanes.x, lanes.fx, lanes.converged, tol=float(root_tol))
     label = f if isinstance(f, str) else getattr(f, "__name__", type(f).__name__)

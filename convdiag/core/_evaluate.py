@@ -148,7 +148,9 @@ class Evaluator:
                 raise self._bad(what, x, n, note or f"returned {type(y).__name__}", "bad-value") from None
             if not (math.isfinite(z.real) and math.isfinite(z.imag)):
                 raise self._bad(what, x, n, f"returned {z}", "nonfinite-value")
-            return z
+            from ._varith import NumpyDivComplex  # divides as numpy does, so solve_many's lanes match bit for bit
+
+            return NumpyDivComplex(z)
         v, status, note = classify_value(y)
         if status == "ok":
             return v

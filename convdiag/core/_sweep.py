@@ -1,55 +1,50 @@
 """Parameter sweeps: solve f(x, **params) = 0 at every point of a grid or a sample of parameters.
 
-:func:`sweep` splits the points into chunks. A chunk is a pure function of its
-inputs (the sweep's settings and the parameter values of its points), has an
-id, and returns one row per point; the table is assembled by chunk id, so a
-chunk computed twice (a retry after a lost worker) is stored once and no point
-is lost or duplicated. Chunks run in this process (vectorised when ``f`` takes
+:func:`sweep` splits the points into chunks and runs them with
+:mod:`convdiag.core._sweep_run`: in this process (vectorised when ``f`` takes
 arrays), in a process pool (when it does not), or on a Dask cluster (pass a
-``dask.distributed.Client``). A KeyboardInterrupt stops the sweep and returns
-the finished chunks; the other points are marked ``not-run``.
+``dask.distributed.Client``). Each chunk is a pure function of its inputs and
+the table is assembled by chunk id, so a chunk computed twice is stored once
+and no point is lost or duplicated. A KeyboardInterrupt stops the sweep and
+returns the finished chunks; the other points are marked ``not-run``.
 """
 
 from __future__ import annotations
 
-import math
 import numbers
 import os
 import time
-import uuid
-from collections.abc import Callable, Mapping, Sequence
+from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
-from typing import Any, Protocol
+from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
 
 from ..errors import ParameterError
+from ._outcomes import OUTCOMES
 from ._show import Showable
-from ._vector import OUTCOMES, REASONS, VECTOR_METHODS, _functions, classify_run, solve_many
+from ._sweep_run import (
+    FIELDS,
+    RESERVED,
+    Assembly,
+    ProgressSink,
+    Spec,
+    brackets_for,
+    col_slice,
+    run_dask,
+    run_here,
+    run_pool,
+    starts_for,
+    table_dtype,
+)
+from ._vector import VECTOR_METHODS
+from ._vfunctions import lane_functions
 
-__all__ = ["ParamGrid", "SweepResult", "param_grid", "read_sweep_csv", "set_progress_factory", "sweep"]
+__all__ = ["FIELDS", "ParamGrid", "SweepResult", "param_grid", "read_sweep_csv", "set_progress_factory", "sweep"]
 
 Arr = NDArray[Any]
-FIELDS: tuple[tuple[str, str], ...] = (
-    ("start", "f8"), ("root", "f8"), ("f_root", "f8"), ("evals", "i4"), ("steps", "i4"),
-    ("outcome", "U13"), ("stop_reason", "U16"),
-)
-_HEAD: tuple[tuple[str, str], ...] = (("point", "i8"), ("chunk", "i4"))
-_RESERVED = {n for n, _ in (*_HEAD, *FIELDS)}
-_OC = {o: i for i, o in enumerate(OUTCOMES)}
-_RC = {r: i for i, r in enumerate(REASONS)}
-_HYBRID_OUTCOME = {"exact-zero": "converged", "bracket-small": "converged", "max-evals": "budget",
-                   "nonfinite-value": "domain-error", "function-raised": "domain-error",
-                   "no-sign-change": "no-bracket"}
-
-
-class ProgressSink(Protocol):
-    def update(self, done: int, total: int) -> None: ...
-
-    def close(self) -> None: ...
-
-
+_Assembly = Assembly  # the former name
 _PROGRESS: list[Callable[[int], ProgressSink]] = []
 
 
@@ -98,11 +93,8 @@ def param_grid(**axes: Any) -> ParamGrid:
     return ParamGrid(tuple(axes), tuple(out))
 
 
+
 # -- the result ---------------------------------------------------------------------------------------
-def _dtype(names: Sequence[str]) -> np.dtype[Any]:
-    return np.dtype([*_HEAD, *((n, "f8") for n in names), *FIELDS])
-
-
 @dataclass(frozen=True, repr=False)
 class SweepResult(Showable):
     """One row per parameter point: the start, the root, evaluations, outcome and stop reason.
@@ -184,187 +176,11 @@ def read_sweep_csv(path: str | os.PathLike[str]) -> Arr:
     """
     with open(path, encoding="utf-8") as fh:
         names = fh.readline().strip().split(",")
-    params = [n for n in names if n not in _RESERVED]
-    dt = _dtype(params)
+    params = [n for n in names if n not in RESERVED]
+    dt = table_dtype(params)
     if list(dt.names or ()) != names:
         raise ParameterError(f"{os.fspath(path)!r} is not a sweep table: its columns are {names}.")
     return np.loadtxt(path, dtype=dt, delimiter=",", skiprows=1, encoding="utf-8", comments=None, ndmin=1)
-
-
-# -- one chunk (pure: the same inputs give the same rows) --------------------------------------------
-@dataclass(frozen=True)
-class _Spec:
-    f: Any
-    method: str
-    start: Any
-    bracket: Any
-    fprime: Any
-    fprime2: Any
-    xtol: float
-    rtol: float | None
-    ftol: float
-    max_evals: int
-    max_steps: int | None
-    variable: str
-    vectorized: bool | None
-    exact: bool
-
-
-def _per_point(fn: Callable[..., Any], cols: Mapping[str, Arr], n: int) -> Arr:
-    """Call ``fn(**params)`` on all points at once, or point by point; NaN where it fails."""
-    try:
-        with np.errstate(all="ignore"):
-            out = np.asarray(fn(**cols), dtype=np.float64)
-        if out.shape in ((n,), ()):
-            return np.broadcast_to(out, (n,)).copy()
-    except Exception:  # noqa: BLE001  (fall back to one call per point)
-        pass
-    res = np.full(n, np.nan)
-    rows = {k: v.tolist() for k, v in cols.items()}
-    for i in range(n):
-        try:
-            res[i] = float(fn(**{k: v[i] for k, v in rows.items()}))
-        except Exception:  # noqa: BLE001  (this point gets no start: marked bad-value)
-            pass
-    return res
-
-
-def _starts(spec: _Spec, cols: Mapping[str, Arr], n: int, lo: int) -> Arr:
-    s = spec.start
-    if callable(s):
-        return _per_point(s, cols, n)
-    if isinstance(s, np.ndarray) and s.ndim == 1:
-        return s[lo:lo + n].astype(np.float64)
-    return np.full(n, float(s))
-
-
-def run_chunk(payload: _Spec | bytes, chunk: int, lo: int, cols: Mapping[str, Arr]) -> tuple[int, dict[str, Arr]]:
-    """Solve the points of one chunk; returns (chunk id, column arrays). Pure and picklable."""
-    if isinstance(payload, bytes):  # shipped with cloudpickle
-        import pickle
-
-        payload = pickle.loads(payload)
-    spec: _Spec = payload  # type: ignore[assignment]
-    n = next(iter(cols.values())).shape[0] if cols else 0
-    out: dict[str, Arr] = {
-        "start": np.full(n, np.nan), "root": np.full(n, np.nan), "f_root": np.full(n, np.nan),
-        "evals": np.zeros(n, np.int32), "steps": np.zeros(n, np.int32),
-        "outcome": np.full(n, _OC["domain-error"], np.uint8), "reason": np.full(n, _RC["bad-value"], np.uint8),
-    }
-    if spec.method in VECTOR_METHODS:
-        x0 = _starts(spec, cols, n, lo)
-        out["start"] = x0
-        ok = np.flatnonzero(np.isfinite(x0))
-        if ok.size:
-            lanes = solve_many(
-                spec.f, spec.method, starts=x0[ok], fprime=spec.fprime, fprime2=spec.fprime2,  # type: ignore[arg-type]
-                params={k: v[ok] for k, v in cols.items()}, xtol=spec.xtol, rtol=spec.rtol, ftol=spec.ftol,
-                max_evals=spec.max_evals, max_steps=spec.max_steps, variable=spec.variable,
-                vectorized=spec.vectorized, exact=spec.exact,
-            )
-            out["root"][ok], out["f_root"][ok] = lanes.x, lanes.fx
-            out["evals"][ok], out["steps"][ok] = lanes.evals, lanes.steps
-            out["outcome"][ok], out["reason"][ok] = lanes.outcome_code, lanes.reason_code
-        return chunk, out
-    a, b = _brackets(spec, cols, n)
-    out["start"] = a
-    ok = np.flatnonzero(np.isfinite(a) & np.isfinite(b) & (a != b))
-    if spec.method == "hybrid" and ok.size:
-        from ._vhybrid import hybrid_many
-
-        fns = _functions(spec.f, None, None, list(cols), spec.variable, "sweep")
-        res = hybrid_many(
-            _lane_function(fns, spec.vectorized), a[ok], b[ok], xtol=spec.xtol, rtol=spec.rtol,
-            max_evals=spec.max_evals, params={k: v[ok] for k, v in cols.items()},
-        )
-        status = res.status.tolist()
-        out["root"][ok], out["f_root"][ok], out["evals"][ok] = res.root, res.fun, res.evaluations
-        out["steps"][ok] = np.maximum(res.evaluations - 2, 0)
-        out["outcome"][ok] = [_OC[_HYBRID_OUTCOME.get(s, "domain-error")] for s in status]
-        out["reason"][ok] = [_RC.get(s, _RC["bad-value"]) for s in status]
-    elif ok.size:
-        _scalar_points(spec, cols, a, b, ok, out)
-    return chunk, out
-
-
-def _brackets(spec: _Spec, cols: Mapping[str, Arr], n: int) -> tuple[Arr, Arr]:
-    br = spec.bracket
-    if callable(br):
-        pair: list[Arr] = []
-        for j in range(2):
-            pair.append(_per_point(lambda _j=j, **p: br(**p)[_j], cols, n))
-        return pair[0], pair[1]
-    return np.full(n, float(br[0])), np.full(n, float(br[1]))
-
-
-def _lane_function(fns: Any, vectorized: bool | None) -> Callable[..., Any]:
-    def f(x: Arr, **p: Any) -> Arr:
-        y, _ = fns.call(0, x, p, False)
-        return y  # type: ignore[no-any-return]
-
-    if vectorized is False:
-        fns.vectorized = False
-    return f
-
-
-def _scalar_points(spec: _Spec, cols: Mapping[str, Arr], a: Arr, b: Arr, ok: Arr, out: dict[str, Arr]) -> None:
-    """Any registered method, one point at a time with the scalar driver."""
-    from ..errors import BracketError
-    from ._session import solve
-
-    rows = {k: v.tolist() for k, v in cols.items()}
-    for i in ok.tolist():
-        kw = dict(xtol=spec.xtol, rtol=spec.rtol, ftol=spec.ftol, max_evals=spec.max_evals,
-                  max_steps=spec.max_steps)
-        try:
-            with np.errstate(all="ignore"):
-                run = solve(spec.f, spec.method, bracket=(float(a[i]), float(b[i])),
-                            params={k: v[i] for k, v in rows.items()} or None, **kw)  # type: ignore[arg-type]
-        except BracketError:
-            out["outcome"][i], out["reason"][i] = _OC["no-bracket"], _RC["no-sign-change"]
-            out["evals"][i] = 2
-            continue
-        except ParameterError:
-            continue
-        out["root"][i] = float(run.root) if run.root is not None else math.nan
-        vals = run.values
-        out["f_root"][i] = vals[np.nanargmin(np.abs(vals))] if np.isfinite(vals).any() else math.nan
-        out["evals"][i], out["steps"][i] = run.evaluations, len(run.steps)
-        out["outcome"][i], out["reason"][i] = _OC[classify_run(run)], _RC.get(run.stop_reason, _RC["not-run"])
-
-
-# -- assembling rows by chunk id ----------------------------------------------------------------------
-class _Assembly:
-    """The table, filled chunk by chunk; a chunk that arrives twice is stored once."""
-
-    def __init__(self, cols: Mapping[str, Arr], bounds: list[tuple[int, int]]) -> None:
-        n = bounds[-1][1] if bounds else 0
-        t = np.zeros(n, _dtype(list(cols)))
-        t["point"] = np.arange(n)
-        for cid, (lo, hi) in enumerate(bounds):
-            t["chunk"][lo:hi] = cid
-        for k, v in cols.items():
-            t[k] = v
-        for k in ("start", "root", "f_root"):
-            t[k] = np.nan
-        t["outcome"], t["stop_reason"] = "not-run", "not-run"
-        self.table, self.bounds, self.done = t, bounds, set[int]()
-
-    def add(self, chunk: int, arrays: Mapping[str, Arr]) -> bool:
-        if chunk in self.done:
-            return False
-        lo, hi = self.bounds[chunk]
-        t = self.table[lo:hi]
-        for k in ("start", "root", "f_root", "evals", "steps"):
-            t[k] = arrays[k]
-        t["outcome"] = np.asarray(OUTCOMES)[arrays["outcome"]]
-        t["stop_reason"] = np.asarray(REASONS)[arrays["reason"]]
-        self.done.add(chunk)
-        return True
-
-    @property
-    def points_done(self) -> int:
-        return sum(self.bounds[c][1] - self.bounds[c][0] for c in self.done)
 
 
 class _Callback:
@@ -386,105 +202,6 @@ def _sink(progress: Any, n: int, chunks: int) -> ProgressSink | None:
     return _PROGRESS[0](n) if _PROGRESS else None
 
 
-# -- runners ------------------------------------------------------------------------------------------
-def _slice(cols: Mapping[str, Arr], lo: int, hi: int) -> dict[str, Arr]:
-    return {k: v[lo:hi] for k, v in cols.items()}
-
-
-def _report(asm: _Assembly, sink: ProgressSink | None) -> None:
-    if sink is not None:
-        sink.update(asm.points_done, asm.table.shape[0])
-
-
-def _run_here(spec: _Spec, cols: Mapping[str, Arr], asm: _Assembly, sink: ProgressSink | None,
-              notes: list[str]) -> bool:
-    for cid, (lo, hi) in enumerate(asm.bounds):
-        try:
-            _, arrays = run_chunk(spec, cid, lo, _slice(cols, lo, hi))
-        except KeyboardInterrupt:
-            return True
-        except Exception as exc:  # noqa: BLE001  (its points stay not-run; the others go on)
-            notes.append(f"chunk {cid} (points {lo}..{hi - 1}) failed: {type(exc).__name__}: {exc}")
-            continue
-        asm.add(cid, arrays)
-        try:
-            _report(asm, sink)
-        except KeyboardInterrupt:
-            return True
-    return False
-
-
-def _dumps(spec: _Spec) -> bytes:
-    try:
-        import cloudpickle
-
-        return cloudpickle.dumps(spec)  # type: ignore[no-any-return]
-    except ImportError:
-        import pickle
-
-        return pickle.dumps(spec)
-
-
-def _run_pool(spec: _Spec, cols: Mapping[str, Arr], asm: _Assembly, sink: ProgressSink | None,
-              notes: list[str], workers: int) -> bool:
-    from concurrent.futures import ProcessPoolExecutor, as_completed
-    from concurrent.futures.process import BrokenProcessPool
-
-    payload = _dumps(spec)
-    todo = set(range(len(asm.bounds)))
-    for _attempt in range(3):  # a lost worker breaks the pool: start a new one for the chunks not stored
-        if not todo:
-            break
-        pool = ProcessPoolExecutor(max_workers=workers)
-        futures = {pool.submit(run_chunk, payload, c, asm.bounds[c][0], _slice(cols, *asm.bounds[c])): c
-                   for c in sorted(todo)}
-        try:
-            for fut in as_completed(futures):
-                try:
-                    cid, arrays = fut.result()
-                except BrokenProcessPool:
-                    notes.append("a worker process died; its chunks were run again")
-                    break
-                except Exception as exc:  # noqa: BLE001
-                    c = futures[fut]
-                    notes.append(f"chunk {c} failed: {type(exc).__name__}: {exc}")
-                    todo.discard(c)
-                    continue
-                todo.discard(cid)
-                if asm.add(cid, arrays):
-                    _report(asm, sink)
-        except KeyboardInterrupt:
-            return True
-        finally:
-            pool.shutdown(wait=False, cancel_futures=True)
-    return False
-
-
-def _run_dask(client: Any, spec: _Spec, cols: Mapping[str, Arr], asm: _Assembly, sink: ProgressSink | None,
-              notes: list[str]) -> bool:
-    from distributed import as_completed
-
-    token = uuid.uuid4().hex[:12]
-    payload = client.scatter(_dumps(spec), broadcast=True, hash=False)
-    futures = [
-        client.submit(run_chunk, payload, c, lo, _slice(cols, lo, hi), key=f"convdiag-sweep-{token}-{c}", retries=2)
-        for c, (lo, hi) in enumerate(asm.bounds)
-    ]
-    try:
-        for fut in as_completed(futures):  # type: ignore[no-untyped-call]
-            try:
-                cid, arrays = fut.result()
-            except Exception as exc:  # noqa: BLE001  (its points stay not-run)
-                notes.append(f"{fut.key} failed: {type(exc).__name__}: {exc}")
-                continue
-            if asm.add(cid, arrays):
-                _report(asm, sink)
-    except KeyboardInterrupt:
-        client.cancel(futures)
-        return True
-    return False
-
-
 # -- the sweep ----------------------------------------------------------------------------------------
 def _points(params: Any, owner: str) -> tuple[dict[str, Arr], ParamGrid | None]:
     if isinstance(params, ParamGrid):
@@ -498,13 +215,13 @@ def _points(params: Any, owner: str) -> tuple[dict[str, Arr], ParamGrid | None]:
     return cols, None
 
 
-def _probe(spec: _Spec, cols: Mapping[str, Arr]) -> bool:
+def _probe(spec: Spec, cols: Mapping[str, Arr]) -> bool:
     """Does f take arrays? (One call on the first few points.)"""
     if isinstance(spec.f, str) or type(spec.f).__module__.startswith("sympy"):
         return True
     k = min(4, next(iter(cols.values())).size)
-    sub = _slice(cols, 0, k)
-    x = _starts(spec, sub, k, 0) if spec.method in VECTOR_METHODS else _brackets(spec, sub, k)[0]
+    sub = col_slice(cols, 0, k)
+    x = starts_for(spec, sub, k, 0) if spec.method in VECTOR_METHODS else brackets_for(spec, sub, k)[0]
     x = np.where(np.isfinite(x), x, 0.0)
     try:
         with np.errstate(all="ignore"):
@@ -530,7 +247,6 @@ def sweep(
     max_steps: int | None = None,
     variable: str = "x",
     vectorized: bool | None = None,
-    exact: bool = True,
     chunk_size: int | None = None,
     client: Any = None,
     processes: int | None = None,
@@ -552,7 +268,7 @@ def sweep(
         ``lambda M, e: M + e*np.sin(M)``), or one value per point.
     bracket : (a, b) or callable, optional
         For bracketing methods: one bracket, or ``bracket(**params) -> (a, b)`` per point.
-    fprime, fprime2, xtol, rtol, ftol, max_evals, max_steps, variable, vectorized, exact
+    fprime, fprime2, xtol, rtol, ftol, max_evals, max_steps, variable, vectorized
         As for :func:`~convdiag.core._vector.solve_many`, per point.
     chunk_size : int, optional
         Points per chunk (default 65536 vectorised, 1024 point by point).
@@ -593,7 +309,7 @@ def sweep(
     owner = "sweep"
     t0 = time.perf_counter()
     cols, grid = _points(params, owner)
-    clash = sorted(set(cols) & _RESERVED)
+    clash = sorted(set(cols) & RESERVED)
     if clash:
         raise ParameterError(f"Parameter names {clash} clash with the sweep table's columns; rename them.")
     n = next(iter(cols.values())).size
@@ -617,26 +333,26 @@ def sweep(
         start = float(s) if s.ndim == 0 else s
     if chunk_size is not None and (not isinstance(chunk_size, numbers.Integral) or chunk_size < 1):
         raise ParameterError.expected("chunk_size", owner, "an int >= 1", chunk_size)
-    _functions(f, fprime, fprime2, list(cols), variable, owner)  # unknown parameters fail here, not per chunk
-    spec = _Spec(f, method, start, bracket, fprime, fprime2, float(xtol), rtol, float(ftol), int(max_evals),
-                 max_steps, variable, vectorized, bool(exact))
+    lane_functions(f, fprime, fprime2, list(cols), variable, owner)  # unknown parameters fail here, not per chunk
+    spec = Spec(f, method, start, bracket, fprime, fprime2, float(xtol), rtol, float(ftol), int(max_evals),
+                 max_steps, variable, vectorized)
     fast = vectorized is not False and (vector or method == "hybrid") and n > 0 and _probe(spec, cols)
     size = int(chunk_size or (65536 if fast else 1024))
     bounds = [(lo, min(lo + size, n)) for lo in range(0, n, size)]
-    asm = _Assembly(cols, bounds)
+    asm = Assembly(cols, bounds)
     sink = _sink(progress, n, len(bounds))
     notes: list[str] = []
     workers = processes if processes is not None else (os.cpu_count() or 1) if len(bounds) > 1 else 1
     try:
         if client is not None:
             runner = "dask"
-            stopped = _run_dask(client, spec, cols, asm, sink, notes)
+            stopped = run_dask(client, spec, cols, asm, sink, notes)
         elif fast or workers <= 1:
             runner = "vectorized" if fast else ("lane-by-lane" if vector else "scalar")
-            stopped = _run_here(spec, cols, asm, sink, notes)
+            stopped = run_here(spec, cols, asm, sink, notes)
         else:
             runner = "process-pool"
-            stopped = _run_pool(spec, cols, asm, sink, notes, workers)
+            stopped = run_pool(spec, cols, asm, sink, notes, workers)
     finally:
         if sink is not None:
             sink.close()

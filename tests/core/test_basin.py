@@ -12,8 +12,9 @@ import mpmath
 import numpy as np
 import pytest
 
-from convdiag import ParameterError
+from convdiag import ParameterError, solve
 from convdiag.core._basin import basin_map, cluster_roots
+from convdiag.core._outcomes import classify_run
 
 CUBE_ROOTS = np.exp(2j * np.pi * np.arange(3) / 3)
 
@@ -34,6 +35,21 @@ def test_newton_on_z_cubed_minus_one_finds_the_three_cube_roots_of_unity():
         assert np.min(np.abs(bm.roots - r)) < 16 * 2.220446049250313e-16
     assert bm.root_counts().sum() == bm.counts()["converged"]
     assert bm.root_counts().min() > 0.3 * bm.starts.size  # three basins of comparable area
+
+
+def test_each_sampled_start_reaches_the_root_the_scalar_driver_reaches_with_the_same_evaluations():
+    # the requirement: lane by lane the map's outcome (root, evaluations, class) is that of
+    # convdiag.solve; 201 x 201 starts run in several blocks, so lanes are set aside and merged
+    bm = basin_map(_cube_minus_one, rectangle=((-2, 2), (-2, 2)), shape=(201, 201), max_evals=150)
+    pick = np.random.default_rng(12).choice(bm.starts.size, 150, replace=False)
+    for i in pick.tolist():
+        z0 = complex(bm.starts.ravel()[i])
+        run = solve(_cube_minus_one, "newton", start=z0, max_evals=150)
+        rid = int(np.argmin(np.abs(bm.roots - run.root))) if run.converged else -1
+        assert (rid, run.evaluations, classify_run(run)) == \
+            (bm.root_id.ravel()[i], bm.evals.ravel()[i], bm.outcome.ravel()[i]), z0
+        if run.converged:
+            assert bm.lanes.x.ravel()[i] == run.root, z0  # z^3 - 1 gives arrays what it gives scalars: bit for bit
 
 
 def test_rotating_the_starts_by_a_third_of_a_turn_permutes_the_basins():

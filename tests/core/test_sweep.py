@@ -1,5 +1,5 @@
 """Parameter sweeps (convdiag.core._sweep): Kepler's equation across (M, e), starts, CSV round trip,
-interruption, chunk assembly, process pool and bracketing methods.
+interruption, process pool and bracketing methods (chunks themselves: tests/core/test_sweep_run.py).
 
 Sources: Kepler's equation E - e sin E = M; Meeus, Astronomical Algorithms (2nd ed. 1998) ch. 30
 (from memory) and the radian values of REFERENCES §5 ([V]); scipy.optimize.brentq on [0, 2π] per
@@ -12,10 +12,10 @@ import numpy as np
 import pytest
 
 from convdiag import ParameterError
-from convdiag.core._sweep import _Assembly, param_grid, read_sweep_csv, sweep
-from convdiag.core._vector import OUTCOMES
+from convdiag.core._outcomes import OUTCOMES
+from convdiag.core._sweep import param_grid, read_sweep_csv, sweep
 
-TIGHT = dict(xtol=1e-12, rtol=0.0)
+TIGHT = {"xtol": 1e-12, "rtol": 0.0}
 
 
 def kepler(E, M, e):
@@ -137,17 +137,6 @@ def test_an_interrupt_raised_inside_the_function_keeps_the_chunks_before_it():
     done = res.table["outcome"] != "not-run"
     assert res.interrupted and res.chunks_done == 3  # M > 4 first occurs in chunk 3 (points 3000..3999)
     assert done[:3000].all() and not done[3000:].any()
-
-
-def test_chunks_are_assembled_by_id_so_a_repeated_chunk_is_stored_once():
-    cols = {"a": np.arange(10.0)}
-    asm = _Assembly(cols, [(0, 4), (4, 8), (8, 10)])
-    rows = {"start": np.ones(4), "root": np.ones(4), "f_root": np.zeros(4), "evals": np.full(4, 3),
-            "steps": np.ones(4), "outcome": np.zeros(4, np.uint8), "reason": np.zeros(4, np.uint8)}
-    assert asm.add(1, rows) and not asm.add(1, {**rows, "root": np.full(4, 7.0)})
-    t = asm.table
-    assert t["root"][4:8].tolist() == [1.0] * 4 and t["point"].tolist() == list(range(10))
-    assert set(t["outcome"][:4]) == {"not-run"} and asm.points_done == 4
 
 
 def test_a_function_that_takes_only_floats_runs_in_a_process_pool_with_the_same_results():

@@ -159,12 +159,18 @@ def test_a_function_that_takes_only_scalars_runs_lane_by_lane_with_the_same_resu
     assert lanes.x[lanes.converged] == pytest.approx(dottie, abs=2e-16)
 
 
-def test_the_inexact_mode_changes_nothing_in_real_arithmetic():
-    starts = np.random.default_rng(9).uniform(-3, 3, 400)
-    a = solve_many(_cubic, "newton", starts=starts, max_evals=40)
-    b = solve_many(_cubic, "newton", starts=starts, max_evals=40, exact=False)
-    for name in ("x", "evals", "steps", "reason_code", "outcome_code"):
-        np.testing.assert_array_equal(getattr(a, name), getattr(b, name))
+def test_complex_lanes_match_the_scalar_driver_where_numpy_and_python_quotients_differ():
+    # the scalar driver divides complex numbers as numpy does (core/_varith.py); the sample must
+    # include starts whose first Newton quotient f/f' differs between numpy and Python, or equality
+    # would prove nothing about the quotient (numpy's divide loop vs Python's complex division)
+    rng = np.random.default_rng(17)
+    starts = rng.uniform(-2, 2, 60) + 1j * rng.uniform(-2, 2, 60)
+    h = EPS ** (1 / 3) * np.maximum(1.0, np.abs(starts))  # the central difference of core/_evaluate.py
+    fx, d = starts**3 - 1, ((starts + h) ** 3 - (starts - h) ** 3) / (2 * h)
+    differ = [complex(a) / complex(b) != complex(q) for a, b, q in zip(fx, d, fx / d)]
+    assert sum(differ) >= 10
+    lanes = _assert_lanes_equal_scalar_runs(_cube_minus_one, "newton", starts, max_evals=150)
+    assert lanes.counts() == {"converged": 60}
 
 
 def test_results_keep_the_shape_of_the_starts_and_every_lane_gets_a_known_outcome():

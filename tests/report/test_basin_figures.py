@@ -19,9 +19,9 @@ from convdiag.report._sweep_text import OUTCOME_COLOURS, TextProgressBar, basin_
 matplotlib = pytest.importorskip("matplotlib")
 matplotlib.use("Agg")
 
-from matplotlib.colors import to_rgb  # noqa: E402
+from matplotlib.colors import to_rgb
 
-from convdiag.report._basin_figures import ROOT_COLOURS, BasinDisplay, EvaluationsDisplay, SweepDisplay  # noqa: E402
+from convdiag.report._basin_figures import ROOT_COLOURS, BasinDisplay, EvaluationsDisplay, SweepDisplay
 
 
 def cube(z):

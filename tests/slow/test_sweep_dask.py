@@ -18,7 +18,7 @@ from convdiag.core._sweep import param_grid, sweep
 distributed = pytest.importorskip("distributed")
 pytestmark = [pytest.mark.slow, pytest.mark.timeout(120)]
 
-TIGHT = dict(xtol=1e-12, rtol=0.0)
+TIGHT = {"xtol": 1e-12, "rtol": 0.0}
 
 
 def kepler(E, M, e):
