@@ -1,12 +1,16 @@
 """A safe expression language: math text in one variable, turned into sympy.
 
-Text such as ``"x**3 - 2*x + 2"`` or ``"cos(x) = a*x"`` is read with ``ast.parse(..., mode="eval")``
-and checked against a whitelist *before* anything is built: numbers, ``+ - * / **``, parentheses,
-the variable, ``pi``, ``e``, parameter names and calls of :data:`FUNCTIONS`. The sympy expression is
-then built node by node; user text never reaches ``eval``, ``exec``, ``sympify`` or ``parse_expr``.
-Constants are guarded: a power is estimated in floats before sympy computes it exactly (``9**9**9``
-is refused at once), and a constant that overflows double precision, is undefined or is not real is
-refused. sympy is imported only when an expression is built.
+Text such as ``"x**3 - 2*x + 2"`` or ``"cos(x) = a*x"`` is read with ``ast.parse(..., mode="eval")`` and checked
+against a whitelist before anything is built: numbers, ``+ - * / **``, parentheses, the variable, ``pi``, ``e``,
+parameter names and calls of :data:`FUNCTIONS`. The sympy expression is then built node by node; user text never
+reaches ``eval``, ``exec``, ``sympify`` or ``parse_expr``.
+
+sympy's exact arithmetic and automatic simplification are kept on a leash, since both can run for hours: powers
+are estimated in floats before sympy computes them (``9**9**9`` is refused at once); constants that overflow
+doubles, are undefined or are not real are refused; powers of the variable keep exact exponents up to 10000 only,
+larger ones become floats (sympy's polynomial code expands ``x**(p/q)`` to degree p); functions of the variable are
+left unevaluated; ``abs`` and ``sign`` get the derivatives of real analysis. sympy and mpmath are imported only
+when needed.
 """
 
 from __future__ import annotations
@@ -31,6 +35,8 @@ __all__ = ["FUNCTIONS", "Expression", "parse_expression", "sympy_to_text"]
 MAX_DEPTH = 60  # nesting levels (brackets, calls, powers, unary signs)
 MAX_LOG10 = 308.0  # log10 of the largest double, rounded down
 MAX_DIFF = 10
+MAX_EXPONENT_PART = 10_000  # exponents of non-constant powers with larger numerators or denominators become floats
+MP_LIMIT = 4096  # mpmath arguments beyond 2**MP_LIMIT give NaN: its range reductions would take forever
 _NAME = re.compile(r"[A-Za-z][A-Za-z0-9_]{0,31}")
 _CONSTANTS = ("e", "pi")
 _OPS = {ast.Mod: "%", ast.FloorDiv: "//", ast.MatMult: "@", ast.LShift: "<<", ast.RShift: ">>", ast.BitAnd: "&",
@@ -65,8 +71,8 @@ def _cbrt(u: Any) -> Any:
 FUNCTIONS: dict[str, tuple[int, Callable[..., Any]]] = {
     **{n: (1, _named(n)) for n in ("sin", "cos", "tan", "asin", "acos", "atan", "sinh", "cosh", "tanh", "asinh",
                                    "acosh", "atanh", "exp", "log", "sqrt", "sign")},
-    "ln": (1, _named("log")), "log10": (1, lambda u: _sympy().log(u, 10)), "abs": (1, _named("Abs")),
-    "cbrt": (1, _cbrt),
+    "ln": (1, _named("log")), "log10": (1, lambda u: _sympy().log(u) / _sympy().log(10)),
+    "abs": (1, _named("Abs")), "cbrt": (1, _cbrt),
 }
 _ALLOWED = ("Allowed: numbers, + - * / **, parentheses, the variable, pi, e, parameter names and the functions "
             + ", ".join(FUNCTIONS) + ".")
@@ -153,9 +159,10 @@ class _Reader:
     def _build(self, node: ast.expr) -> tuple[Any, complex | None]:
         sp = _sympy()
         if isinstance(node, ast.Constant):
-            assert isinstance(node.value, (int, float))
-            frac = Fraction(repr(node.value))  # 0.1 -> 1/10 (shortest repr), exact in high-precision replays
-            return sp.Rational(frac.numerator, frac.denominator), complex(node.value)
+            v = node.value
+            assert isinstance(v, (int, float))
+            frac = Fraction(repr(v))  # 0.1 -> 1/10 exactly (its shortest repr): exact in high-precision replays
+            return sp.Rational(frac.numerator, frac.denominator), complex(v)
         if isinstance(node, ast.Name):
             if node.id in _CONSTANTS:
                 return (sp.E, complex(math.e)) if node.id == "e" else (sp.pi, complex(math.pi))
@@ -169,7 +176,8 @@ class _Reader:
             built = [self.build(a) for a in node.args]
             args = [b[0] for b in built]
             if any(val is None for _, val in built):
-                return builder(*args), None
+                with sp.evaluate(False):  # sympy's automatic simplification can hang: log(sinh((2*x)**0.3))
+                    return builder(*args), None
             with sp.evaluate(False):  # exp(n*log(3)) would become 3**n: estimate it first
                 probe = builder(*args)
             self.value(node, probe)
@@ -179,8 +187,7 @@ class _Reader:
         first, rest = _chain(node)
         if isinstance(node.op, ast.Pow):
             (base, bval), (power, pval) = self.build(first), self.build(rest[0][1])
-            self.check_power(node, base, bval, power, pval)
-            expr = sp.Pow(base, power)
+            expr = sp.Pow(base, self.tame_power(node, base, bval, power, pval))
             return expr, (None if bval is None or pval is None else self.value(node, expr))
         out = [self.build(first)[0]]
         for op, operand in rest:
@@ -191,25 +198,36 @@ class _Reader:
         expr = sp.Add(*out) if isinstance(node.op, (ast.Add, ast.Sub)) else sp.Mul(*out)
         return expr, (self.value(node, expr) if expr.is_number else None)
 
-    def check_power(self, node: ast.AST, base: Any, bval: complex | None, power: Any, pval: complex | None) -> None:
-        """Refuse ``base**power`` before sympy computes numbers beyond double precision.
+    def tame_power(self, node: ast.AST, base: Any, bval: complex | None, power: Any, pval: complex | None) -> Any:
+        """Return the exponent to use for ``base**power``, or refuse the power.
 
-        sympy evaluates Rational**Integer exactly, distributes integer powers over products
-        ((2*x)**n -> 2**n * x**n) and splits b**(h + t) into b**h * b**t, so the rationals in the base
-        (and a constant base's value) are bounded against the exponent's value, or its constant term h.
+        sympy computes Rational**Rational exactly: ``9**9**9`` would run for hours, and so would a constant
+        to a power with a long numerator or denominator (its loops run to the denominator). It also expands
+        x**(p/q) to polynomials of degree p, distributes powers over products ((2*x)**n -> 2**n * x**n)
+        and splits b**(h + t) into b**h * b**t. So long fractions in exponents become floats, the value of a
+        constant power is estimated in floats, and so is the size of the exact numbers sympy would compute.
         """
         sp = _sympy()
-        logs = [0.0] + [math.log10(q) for a in base.atoms(sp.Rational) for q in (abs(int(a.p)), int(a.q)) if q]
-        if bval and pval is not None:
-            logs.append(abs(math.log10(abs(bval))))
-        h = power.as_coeff_Add()[0] if pval is None else sp.S.Zero
-        try:
-            size = abs(pval) if pval is not None else abs(int(h.p)) / int(h.q) if h.is_Rational else 0.0
-        except OverflowError:
-            size = math.inf
-        if max(logs) and size * max(logs) > MAX_LOG10:
-            raise self.refuse(node, f"The power {_show(self.part(node))} has about {size * max(logs):.4g} digits: "
-                                    "it overflows double precision (about 1.8e308). Use smaller constants.")
+        const = bval is not None and pval is not None
+        wide = {a: sp.Float(float(a)) for a in power.atoms(sp.Rational)
+                if max(abs(a.p), a.q) > MAX_EXPONENT_PART and not (const and a.q == 1)}
+        if wide:
+            with sp.evaluate(False):
+                power = power.xreplace(wide)
+        shown = _show(self.part(node))
+        size = abs(pval) * abs(math.log10(abs(bval))) if bval and pval is not None else 0.0
+        if size > MAX_LOG10:
+            raise self.refuse(node, f"The power {shown} has about {size:.4g} digits: it overflows double precision "
+                                    "(about 1.8e308). Use smaller constants.")
+        h = power.as_coeff_Add()[0]
+        logs = [0.0] + [max(math.log10(abs(int(a.p)) or 1), math.log10(int(a.q))) for a in base.atoms(sp.Rational)]
+        digits = float(min(abs(int(h.p)), 10**308)) * max(logs) if h.is_Rational else 0.0
+        if digits <= MAX_LOG10:
+            return power
+        if bval is not None and pval is not None:  # the value fits a double: compute it in floats, not exactly
+            return sp.Float(pval.real)
+        raise self.refuse(node, f"The power {shown} would make sympy compute numbers of about {digits:.4g} digits "
+                                "(doubles stop at about 1e308). Use smaller constants.")
 
     def value(self, node: ast.AST, expr: Any) -> complex:
         """Approximate a constant; refuse it when undefined, too large for floats or not real."""
@@ -345,8 +363,17 @@ class Expression:
         if n == 0:
             return self
         sp = _sympy()
-        expr = sp.diff(self.sympy, sp.Symbol(self.variable, real=True), n).replace(sp.DiracDelta, lambda *a: 0)
-        return Expression(sympy_to_text(expr), self.variable, self.params, expr)
+        real_abs, real_sign = _real_abs_sign()
+        try:
+            with sp.evaluate(False):
+                expr = _swap(self.sympy, {sp.Abs: real_abs, sp.sign: real_sign})
+            expr = sp.diff(expr, sp.Symbol(self.variable, real=True), n)
+            with sp.evaluate(False):
+                expr = _swap(expr, {real_abs: sp.Abs, real_sign: sp.sign})
+            return Expression(sympy_to_text(expr), self.variable, self.params, expr)
+        except Exception as exc:  # sympy fails on some huge constants: x**(2**1000)
+            raise ExpressionError(f"sympy could not differentiate {_show(self.text)} ({type(exc).__name__}). Use "
+                                  "smaller constants, or pass the derivative yourself.", part=self.text) from None
 
     def numeric(self, params: Mapping[str, float] | None = None) -> Callable[[Any], Any]:
         """Return a numpy function of the variable, parameters fixed to ``params``.
@@ -387,7 +414,7 @@ class Expression:
             try:
                 out = fn(mpmath.mpmathify(x) if isinstance(x, (int, float, complex)) else x, *values)
             except ArithmeticError:  # mpmath.exp(1e300) and the like: too large for mpmath too
-                return mpmath.mpf("nan")
+                return mpmath.nan
             return out if isinstance(out, (mpmath.mpf, mpmath.mpc)) else mpmath.mpmathify(out)
 
         return f
@@ -413,12 +440,102 @@ class Expression:
         if module not in self._cache:  # one per module: parameter values are passed at call time
             sp = _sympy()
             symbols = [sp.Symbol(name, real=True) for name in (self.variable, *self.params)]
-            expr = self.sympy
-            if module == "numpy":  # numpy cannot take Python ints beyond int64: sin(10**300)
-                big = [n for n in expr.atoms(sp.Rational) if max(abs(n.p), n.q) > 2**53]
-                expr = expr.xreplace({n: sp.Float(n, 17) for n in big})
-            self._cache[module] = sp.lambdify(symbols, expr, modules=module, dummify=True)
+            try:
+                self._cache[module] = _lambdify(symbols, self.sympy, module)
+            except Exception as exc:  # e.g. integers too long to print
+                raise ExpressionError(f"sympy could not turn {_show(self.text)} into a {module} function "
+                                      f"({type(exc).__name__}). Use smaller constants.", part=self.text) from None
         return self._cache[module]
+
+
+_REAL_ABS_SIGN: list[Any] = []
+
+
+def _real_abs_sign() -> tuple[Any, Any]:
+    """``abs`` and ``sign`` with the derivatives of real analysis: sign and 0 (deltas vanish almost everywhere).
+
+    sympy's own derivative of Abs(u) expands re(u) and im(u) when it cannot prove u real, which can take minutes.
+    """
+    if not _REAL_ABS_SIGN:
+        from sympy import Function, S
+
+        class RealSign(Function):  # type: ignore[misc]
+            def fdiff(self, argindex: int = 1) -> Any:
+                return S.Zero
+
+        class RealAbs(Function):  # type: ignore[misc]
+            def fdiff(self, argindex: int = 1) -> Any:
+                return RealSign(self.args[0])
+
+        _REAL_ABS_SIGN.extend([RealAbs, RealSign])
+    return _REAL_ABS_SIGN[0], _REAL_ABS_SIGN[1]
+
+
+def _swap(expr: Any, table: dict[Any, Any]) -> Any:
+    """Rebuild ``expr`` bottom-up with the functions in ``table`` replaced (call under ``evaluate(False)``)."""
+    if not expr.args:
+        return expr
+    return table.get(expr.func, expr.func)(*[_swap(a, table) for a in expr.args])
+
+
+def _float_text(p: int, q: int) -> str:
+    if max(abs(p), q) <= 2**53:
+        return str(p) if q == 1 else f"({p}/{q})"
+    try:
+        return f"({p / q!r})"  # numpy cannot take Python ints beyond int64: sin(10**300)
+    except OverflowError:
+        return "float('inf')" if p > 0 else "float('-inf')"
+
+
+def _mp_guard(name: str) -> Callable[[Any], Any]:
+    def guarded(u: Any) -> Any:
+        import mpmath
+
+        return mpmath.nan if mpmath.mag(u) > MP_LIMIT else getattr(mpmath, name)(u)
+
+    return guarded
+
+
+def _mp_pow(a: Any, b: Any) -> Any:
+    import mpmath
+
+    if a != 0 and mpmath.mag(b) + mpmath.mag(mpmath.log(a)) > MP_LIMIT:
+        return mpmath.nan
+    return a**b
+
+
+def _lambdify(symbols: list[Any], expr: Any, module: str) -> Callable[..., Any]:
+    """``sympy.lambdify`` with printers that keep numpy in floats and mpmath out of endless range reductions."""
+    import sympy
+    from sympy.printing.numpy import NumPyPrinter
+    from sympy.printing.pycode import MpmathPrinter
+
+    class NumPy(NumPyPrinter):  # type: ignore[misc]
+        def _print_Integer(self, e: Any) -> str:
+            return _float_text(int(e.p), 1)
+
+        def _print_Rational(self, e: Any) -> str:
+            return _float_text(int(e.p), int(e.q))
+
+        def _print_Pow(self, e: Any, rational: bool = False) -> str:  # sympy's asks e.exp.is_integer: can hang
+            if e.exp == sympy.S.Half:
+                return f"{self._module_format('numpy.sqrt')}({self._print(e.base)})"
+            return f"({self._print(e.base)})**({self._print(e.exp)})"
+
+    class Mpmath(MpmathPrinter):  # type: ignore[misc]
+        def _print_Pow(self, e: Any, rational: bool = False) -> str:
+            return f"_mp_pow({self._print(e.base)}, {self._print(e.exp)})"
+
+    names: dict[str, Any] = {"_mp_pow": _mp_pow, **{f: _mp_guard(f) for f in ("sin", "cos", "tan", "sinh", "cosh",
+                                                                            "tanh", "exp")}}
+    modules: list[Any] = ["numpy"] if module == "numpy" else [names, "mpmath"]
+    printer = (NumPy if module == "numpy" else Mpmath)({"fully_qualified_modules": False, "inline": True,
+                                                        "allow_unknown_functions": True,
+                                                        "user_functions": {k: k for k in names}})
+    plain = [sympy.Symbol(f"_cd{i}") for i in range(len(symbols))]  # lambdify's own dummify re-evaluates everything
+    with sympy.evaluate(False):
+        expr = expr.xreplace(dict(zip(symbols, plain)))
+    return sympy.lambdify(plain, expr, modules=modules, printer=printer)  # type: ignore[no-any-return]
 
 
 def sympy_to_text(expr: Any) -> str:
@@ -438,6 +555,9 @@ def sympy_to_text(expr: Any) -> str:
 
         def _print_Exp1(self, e: Any) -> str:
             return "e"
+
+        def _print_Float(self, e: Any) -> str:
+            return repr(float(e))  # all 17 digits, so the text reads back to the same double
 
     return str(Printer().doprint(expr))
 
@@ -495,9 +615,10 @@ def parse_expression(text: str, *, variable: str = "x", max_length: int = 1000) 
     expr = parts[0] - parts[1] if len(parts) == 2 else parts[0]
     if expr.has(sp.zoo, sp.nan, sp.oo, -sp.oo):
         raise ExpressionError(f"{_show(text)} is undefined (division by zero or a pole).", part=text)
-    for number in expr.atoms(sp.Rational):  # folded constants: x*10**300*10**300 -> 10**600*x
-        p, q = abs(int(number.p)), int(number.q)
-        if max(p.bit_length(), q.bit_length()) > 2400 or (p and math.log10(p) - math.log10(q) > MAX_LOG10):
+    for number in expr.atoms(sp.Number):  # folded constants: x*10**300*10**300 -> 10**600*x
+        p, q = (abs(int(number.p)), int(number.q)) if number.is_Rational else (0, 1)
+        if (max(p.bit_length(), q.bit_length()) > 2400 or (p and math.log10(p) - math.log10(q) > MAX_LOG10)
+                or (number.is_Float and not math.isfinite(float(number)))):
             raise ExpressionError(f"Folding the constants in {_show(text)} gives a number beyond double precision "
                                   "(about 1.8e308). Use smaller constants.", part=text)
     return Expression(text, variable, tuple(sorted(set().union(*(r.names for r, _ in sides)))), expr)
