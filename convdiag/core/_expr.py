@@ -152,7 +152,7 @@ class _Reader:
             return self._build(node)
         except ExpressionError:
             raise
-        except Exception as exc:  # sympy's own evaluation can fail on odd constants: asin(sin(9*10**300))
+        except Exception as exc:  # noqa: BLE001 - sympy can raise anything on odd constants: asin(sin(9*10**300))
             raise self.refuse(node, f"sympy could not build {_show(self.part(node))} ({type(exc).__name__}). "
                                     "Use simpler constants.") from None
 
@@ -371,7 +371,7 @@ class Expression:
             with sp.evaluate(False):
                 expr = _swap(expr, {real_abs: sp.Abs, real_sign: sp.sign})
             return Expression(sympy_to_text(expr), self.variable, self.params, expr)
-        except Exception as exc:  # sympy fails on some huge constants: x**(2**1000)
+        except Exception as exc:  # noqa: BLE001 - sympy fails on some huge constants: x**(2**1000)
             raise ExpressionError(f"sympy could not differentiate {_show(self.text)} ({type(exc).__name__}). Use "
                                   "smaller constants, or pass the derivative yourself.", part=self.text) from None
 
@@ -442,7 +442,7 @@ class Expression:
             symbols = [sp.Symbol(name, real=True) for name in (self.variable, *self.params)]
             try:
                 self._cache[module] = _lambdify(symbols, self.sympy, module)
-            except Exception as exc:  # e.g. integers too long to print
+            except Exception as exc:  # noqa: BLE001 - e.g. integers too long to print
                 raise ExpressionError(f"sympy could not turn {_show(self.text)} into a {module} function "
                                       f"({type(exc).__name__}). Use smaller constants.", part=self.text) from None
         return self._cache[module]

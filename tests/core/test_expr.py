@@ -352,7 +352,7 @@ def test_hostile_text_is_refused_quickly_and_without_side_effects(text, named, s
 
 def test_importing_the_module_does_not_import_sympy():
     code = "import convdiag.core._expr, sys; assert 'sympy' not in sys.modules, 'sympy imported'"
-    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=60)
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=60, check=False)
     assert done.returncode == 0, done.stderr
 
 
