@@ -144,16 +144,14 @@ def _derivative_callable(d: Any, params: Mapping[str, float], variable: str, nam
 
 
 def _expression_from_sympy(obj: Any, variable: str | None) -> Any:
-    from ._expr import parse_expression
-
-    import sympy
+    from ._expr import parse_expression, sympy_to_text
 
     free = sorted(obj.free_symbols, key=lambda s: s.name)
     if variable is None:
         names = [s.name for s in free]
         variable = "x" if "x" in names or not names else names[0]
     # Round-trip through text so that the same whitelist applies to sympy input.
-    text = sympy.sstr(obj)
+    text = sympy_to_text(obj)
     return parse_expression(text, variable=variable)
 
 

@@ -85,3 +85,12 @@ def test_expression_parameters_and_with_params():
 def test_non_callable_is_refused_with_a_hint():
     with pytest.raises(ParameterError, match="must be a callable, an expression string or a sympy expression"):
         as_problem(42)
+
+
+def test_sympy_abs_and_euler_e_survive_the_round_trip_through_text():
+    sympy = pytest.importorskip("sympy")
+    x = sympy.Symbol("x")
+    p = as_problem(sympy.Abs(x) - sympy.E)
+    assert p.expression.params == ()  # E is Euler's number, not a parameter
+    # reference: |x| - e is zero at x = e (math.e)
+    assert solve(p, "bisection", bracket=(1.0, 4.0)).root == pytest.approx(math.e, rel=1e-15)
