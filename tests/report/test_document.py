@@ -115,3 +115,95 @@ def test_cli_demo_writes_the_report(tmp_path, capsys):
     assert code == 0 and "Report written" in out
     page = (tmp_path / "demo" / "report.html").read_text(encoding="utf-8")
     assert "Pipe P-17" in page and page.count("data:image/png;base64,") >= 2
+
+
+# -- the report of a known case, read back from its HTML --------------------------------------------------------------
+class _Sections(html.parser.HTMLParser):
+    """Split a report page into its h2 sections: heading -> text, and the figures (alt, caption, src) of each."""
+
+    def __init__(self):
+        super().__init__()
+        self.title, self.sections, self._in, self._current = "", {}, None, None
+
+    def handle_starttag(self, tag, attrs):
+        a = dict(attrs)
+        if tag in ("h1", "h2", "figcaption"):
+            self._in = tag
+            if tag == "h2":
+                self._current = ""
+        elif tag == "img" and self._current is not None:
+            self.sections[self._current]["figures"].append({"alt": a.get("alt", ""), "src": a["src"], "caption": ""})
+
+    def handle_endtag(self, tag):
+        if tag == self._in:
+            self._in = None
+            if tag == "h2":
+                self.sections.setdefault(self._current, {"text": "", "figures": []})
+
+    def handle_data(self, data):
+        if self._in == "h1":
+            self.title += data
+        elif self._in == "h2":
+            self._current += data
+        elif self._in == "figcaption" and self._current is not None:
+            self.sections[self._current]["figures"][-1]["caption"] += data
+        elif self._current is not None and self._current in self.sections:
+            self.sections[self._current]["text"] += data + " "
+
+
+def _png_size(png):
+    """Width and height from a PNG's IHDR chunk (PNG specification, ISO/IEC 15948, §11.2.2)."""
+    assert png[:8] == PNG_MAGIC and png[12:16] == b"IHDR"
+    return int.from_bytes(png[16:20], "big"), int.from_bytes(png[20:24], "big")
+
+
+def _read_back(report):
+    parser = _Sections()
+    parser.feed(report.to_html())
+    return parser
+
+
+def test_the_report_of_the_newton_two_cycle_states_the_verdict_cycle_with_its_points(newton_cycle_report):
+    # Newton on x^3 - 2x + 2 from 0 alternates 0, 1, 0, 1 (Burden & Faires, Numerical Analysis, from memory;
+    # REFERENCES.md §4 recomputed it): the verdict must be a cycle of period 2 through 0 and 1.
+    _, rep = newton_cycle_report
+    page = _read_back(rep)
+    assert "Diagnosis" in page.sections
+    diagnosis = " ".join(page.sections["Diagnosis"]["text"].split())
+    assert "verdict: cycle (period 2)" in diagnosis
+    assert "cycle points 0, 1" in diagnosis
+    assert "hybrid" in diagnosis  # the fix it recommends is named in the document
+
+
+def test_the_report_of_the_newton_two_cycle_states_the_order_estimate_and_the_theory(newton_cycle_report):
+    _, rep = newton_cycle_report
+    order = " ".join(_read_back(rep).sections["Observed order of convergence"]["text"].split())
+    # a cycle has no order: the estimate must say so rather than print a number
+    assert "Observed order: not converging" in order
+    assert "theoretical order 2" in order  # Newton's nominal order (Ostrowski 1960, from memory)
+
+
+def test_a_converging_newton_run_reports_a_quadratic_order_in_the_html():
+    # Newton on x^2 - 2 from 1 converges quadratically to sqrt(2) (any numerical analysis text; REFERENCES.md §1)
+    rep = make_report(convdiag.solve("x**2 - 2", "newton", start=1.0))
+    page = _read_back(rep)
+    order = " ".join(page.sections["Observed order of convergence"]["text"].split())
+    assert "quadratic" in order
+    assert "verdict: converged" in " ".join(page.sections["Diagnosis"]["text"].split())
+    assert "1.4142135623730951" in " ".join(page.sections["Iterates"]["text"].split())  # math.sqrt(2)
+
+
+def test_every_figure_of_the_two_cycle_report_is_a_png_under_its_section_with_its_caption(newton_cycle_report):
+    _, rep = newton_cycle_report
+    page = _read_back(rep)
+    placed = {heading: [f["caption"] for f in s["figures"]] for heading, s in page.sections.items() if s["figures"]}
+    # the function with the last step's model under the iterates, the progress plot under the order estimate
+    assert list(placed) == ["Iterates", "Observed order of convergence"]
+    figures = [f for s in page.sections.values() for f in s["figures"]]
+    assert [f["caption"] for f in figures] == [fig.caption for fig in rep.figures]
+    for f, fig in zip(figures, rep.figures):
+        assert f["alt"] == f["caption"]
+        png = base64.b64decode(f["src"].split(",", 1)[1])
+        assert png == fig.png
+        width, height = _png_size(png)
+        assert width >= 300 and height >= 200, (fig.name, width, height)
