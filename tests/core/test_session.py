@@ -6,7 +6,7 @@ import time
 import numpy as np
 import pytest
 
-from convdiag import BracketError, EvaluationError, ParameterError, solve, start_session
+from convdiag import BracketError, EvaluationError, solve, start_session
 
 
 def cos_minus_x(x):
@@ -32,11 +32,11 @@ def test_session_steps_forward_and_back_without_recomputing():
 @pytest.mark.parametrize(
     "rule, kwargs",
     [
-        ("step-small", dict(method="newton", start=1.0, xtol=1e-3, fprime=lambda x: -math.sin(x) - 1)),
-        ("residual-small", dict(method="newton", start=1.0, ftol=1e-3)),
-        ("bracket-small", dict(method="bisection", bracket=(0.0, 1.0), xtol=1e-3)),
-        ("max-evals", dict(method="bisection", bracket=(0.0, 1.0), max_evals=7)),
-        ("max-steps", dict(method="bisection", bracket=(0.0, 1.0), max_steps=3)),
+        ("step-small", {"method": "newton", "start": 1.0, "xtol": 1e-3, "fprime": lambda x: -math.sin(x) - 1}),
+        ("residual-small", {"method": "newton", "start": 1.0, "ftol": 1e-3}),
+        ("bracket-small", {"method": "bisection", "bracket": (0.0, 1.0), "xtol": 1e-3}),
+        ("max-evals", {"method": "bisection", "bracket": (0.0, 1.0), "max_evals": 7}),
+        ("max-steps", {"method": "bisection", "bracket": (0.0, 1.0), "max_steps": 3}),
     ],
 )
 def test_the_record_names_the_rule_that_stopped_the_run(rule, kwargs):
@@ -115,40 +115,11 @@ def test_overflowing_iterates_are_reported_not_raised():
     assert run.failure.message
 
 
-@pytest.mark.parametrize(
-    "kwargs, match",
-    [
-        (dict(start=math.nan), r"The 'start' parameter of solve must be a finite number. Got nan"),
-        (dict(start=math.inf), "must be a finite number"),
-        (dict(start="1.0"), r"Got '1.0' instead"),
-        (dict(start=None), "newton needs a start"),
-        (dict(start=1.0, xtol=-1.0), r"The 'xtol' parameter of solve must be a finite float >= 0. Got -1.0"),
-        (dict(start=1.0, max_evals=0), "max_evals"),
-        (dict(start=1.0, max_time=-1), "max_time"),
-        (dict(start=1.0, method="newtonn"), "must be one of bisection"),
-        (dict(start=[1.0, 1.0], method="secant"), "must be distinct"),
-        (dict(start=[1.0, 2.0, 3.0], method="secant"), "at most 2 start"),
-        (dict(start=1.0, method="bisection"), r"bisection needs a bracket .* Pass bracket="),
-        (dict(bracket=(1.0, 1.0), method="bisection"), "must have a < b"),
-        (dict(bracket=(1.0,), method="bisection"), "must be a pair"),
-        (dict(start=True), "finite number"),
-    ],
-)
-def test_bad_arguments_raise_parameter_error_with_the_template_message(kwargs, match):
-    kwargs.setdefault("method", "newton")
-    with pytest.raises(ParameterError, match=match):
-        solve(cos_minus_x, **kwargs)
-
-
 def test_bracket_without_sign_change_names_both_values_and_keeps_them():
     with pytest.raises(BracketError, match=r"same sign at both ends of \[1.0, 2.0\].*find_brackets") as info:
         solve(lambda x: x * x + 1, "bisection", bracket=(1.0, 2.0))
     assert info.value.evals.value.tolist() == [2.0, 5.0]
 
-
-def test_reversed_bracket_is_accepted_and_noted():
-    run = solve(cos_minus_x, "bisection", bracket=(1.0, 0.0))
-    assert run.converged and run.bracket == (0.0, 1.0) and any("given as (b, a)" in n for n in run.notes)
 
 
 def test_complex_start_runs_newton_in_complex_arithmetic():

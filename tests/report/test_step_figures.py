@@ -1,4 +1,4 @@
-"""StepDisplay and ProgressDisplay (convdiag/report/_step_figures.py), drawn on Agg.
+"""StepDisplay, sample_curve and auto_xlim (convdiag/report/_step_figures.py), drawn on Agg.
 
 Check values, by hand on f = x² − 2 (f' = 2x, f'' = 2):
 - Newton from 1: 1 − (−1)/2 = 1.5.
@@ -15,10 +15,13 @@ import math
 
 import numpy as np
 import pytest
-from matplotlib.figure import Figure
 
 import convdiag
-from convdiag.report._step_figures import ProgressDisplay, StepDisplay, auto_xlim, sample_curve
+
+matplotlib = pytest.importorskip("matplotlib")
+matplotlib.use("Agg")
+
+from convdiag.report._step_figures import StepDisplay, auto_xlim, sample_curve
 
 
 def first_step(method, **kw):
@@ -90,17 +93,3 @@ def test_the_curve_is_sampled_point_by_point_where_f_is_not_vectorised_and_nan_w
 def test_auto_xlim_leaves_a_wild_step_out_of_the_picture():
     lo, hi = auto_xlim([0.5, 1.0, -55.3, 26.4], core=[0.1])
     assert -55.3 < lo < 0.1 and 1.0 < hi < 26.4
-
-
-def test_progress_shows_step_sizes_residuals_and_errors_against_iteration_and_evaluations():
-    run = convdiag.solve("x**2 - 2", "newton", start=1.0)
-    est = convdiag.core._order.estimate_order(run, replay=False)
-    p = ProgressDisplay.from_run(run, est)
-    fig = Figure()
-    p.plot(*fig.subplots(2, 1))
-    np.testing.assert_allclose(p.step[1:], np.abs(np.diff(run.iterates)))
-    np.testing.assert_allclose(p.resid, np.abs(run.values))
-    np.testing.assert_allclose(p.error[:3], np.abs(run.iterates[:3] - math.sqrt(2)), rtol=1e-9)
-    assert p.evals.tolist() == run.evals_at_iterates.tolist()
-    assert p.lines_["error_ev"].get_xdata().tolist() == run.evals_at_iterates.tolist()
-    assert p.ax_.get_yscale() == "log"
