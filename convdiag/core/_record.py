@@ -28,12 +28,14 @@ __all__ += ["D2F", "DF", "FD", "F_AND_DF", "F", "_Raised", "build_log", "classif
 
 
 def _recording_call(
-    f: Callable[..., Any], xy: list[Any], ts: list[float]
+    f: Callable[..., Any], xy: list[Any], ts: list[float], last_args: list[tuple[Any, ...]]
 ) -> Callable[..., Any]:
     """The hot path: call f, keep (x, y) and (t_start, t_end) in two flat lists.
 
     Flat appends allocate no tuple (nothing for the garbage collector to
-    track), and locals bound as defaults avoid global lookups.
+    track), and locals bound as defaults avoid global lookups. Extra
+    positional arguments a solver passes (``args=``) are kept, the latest
+    only, so later probes can call f the same way.
     """
 
     def call(
@@ -43,10 +45,15 @@ def _recording_call(
         _xy: Callable[[Any], None] = xy.append,
         _ts: Callable[[float], None] = ts.append,
         _pc: Callable[[], float] = perf_counter,
+        _last: list[tuple[Any, ...]] = last_args,
     ) -> Any:
         _ts(_pc())
         try:
-            y = _f(x, *args) if args else _f(x)
+            if args:
+                _last[0] = args
+                y = _f(x, *args)
+            else:
+                y = _f(x)
         except BaseException as exc:
             _ts(_pc())
             _xy(x)
@@ -94,6 +101,7 @@ class Recorder(functools.partial):  # type: ignore[type-arg]
 
     _xy: list[Any]
     _ts: list[float]
+    _last_args: list[tuple[Any, ...]]
     _t_origin: float
     _kind: int
     name: str
@@ -115,8 +123,9 @@ class Recorder(functools.partial):  # type: ignore[type-arg]
             raise ParameterError.expected("f", "record", "a callable", f)
         xy: list[Any] = []
         ts: list[float] = []
-        self = super().__new__(cls, _recording_call(f, xy, ts))
-        self._xy, self._ts = xy, ts
+        last_args: list[tuple[Any, ...]] = [()]
+        self = super().__new__(cls, _recording_call(f, xy, ts, last_args))
+        self._xy, self._ts, self._last_args = xy, ts, last_args
         self._t_origin = perf_counter() if _t_origin is None else _t_origin
         self._kind = F_AND_DF if returns_derivative else _kind
         self.name = str(name or getattr(f, "__name__", type(f).__name__))
@@ -128,6 +137,11 @@ class Recorder(functools.partial):  # type: ignore[type-arg]
     # -- access -----------------------------------------------------------
     def _members(self) -> list[Recorder]:
         return [r for r in (self, self.fprime, self.fprime2) if r is not None]
+
+    @property
+    def call_args(self) -> tuple[Any, ...]:
+        """Extra positional arguments of the latest call that had any (``args=`` of a solver), or ()."""
+        return self._last_args[0]
 
     def __len__(self) -> int:
         """Calls recorded so far (the derivatives' calls included)."""

@@ -135,3 +135,16 @@ def test_scipy_newton_fprime_true_pairs_are_recorded():
     assert abs(root - math.sqrt(2)) < 1e-14  # reference: math.sqrt
     assert set(log.kind.tolist()) == {"f+df"}
     assert np.allclose(log.derivative, 2 * log.x)
+
+
+def test_extra_solver_args_are_kept_for_later_probes():
+    # scipy.optimize.newton passes args=(...) to f on every call (scipy documentation).
+    def kepler(E, M, ecc):
+        return E - ecc * math.sin(E) - M
+
+    rf = record(kepler)
+    assert rf.call_args == ()
+    root = optimize.newton(rf, 1.0, args=(1.0, 0.5))
+    assert rf.call_args == (1.0, 0.5)
+    # reference: shared/REFERENCES.md §5, Kepler (M=1, e=0.5) E = 1.49870113351785
+    assert abs(root - 1.49870113351785) < 1e-13
