@@ -14,7 +14,6 @@ from __future__ import annotations
 import base64
 import datetime as _dt
 import html
-import inspect
 import io
 import os
 import platform
@@ -23,8 +22,11 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from ..errors import ParameterError
+from ._text import html_table
 
 __all__ = ["Figure", "Report", "Section", "make_report"]
+
+SUMMARY_HEADERS = ("#", "what", "method", "outcome", "verdict", "root (or best point)", "evaluations", "what to change")
 
 CAUTION = (
     "Numbers in this report describe how the solver behaved on this function. Where they feed "
@@ -47,12 +49,17 @@ class Figure:
 
 @dataclass(frozen=True)
 class Section:
-    """A heading, its Markdown and HTML bodies, and its figures."""
+    """A heading, its Markdown and HTML bodies, and its figures.
+
+    ``level`` 2 is a top-level part of the report (one per documented
+    result); level 3 is a part of it.
+    """
 
     heading: str
     markdown: str
     html: str
     figures: tuple[Figure, ...] = ()
+    level: int = 2
 
 
 @dataclass(frozen=True)
@@ -64,6 +71,7 @@ class Report:
     versions: tuple[tuple[str, str], ...]
     created: str
     caution: str = CAUTION
+    summary: tuple[tuple[str, ...], ...] = ()
     files: dict[str, str] = field(default_factory=dict, compare=False)
 
     @property
@@ -74,9 +82,14 @@ class Report:
     def to_markdown(self, *, figure_dir: str | None = None) -> str:
         """Markdown; figures link to ``figure_dir/<name>.png`` (or are embedded as data URIs)."""
         out = [f"# {self.title}", "", f"_Created {self.created}._", ""]
-        for s in self.sections:
-            out += [f"## {s.heading}", "", s.markdown.rstrip(), ""]
-            for fig in s.figures:
+        if self.summary:
+            out += ["## Summary", "", md_table(list(SUMMARY_HEADERS), [list(r) for r in self.summary]), ""]
+        tops = [sec.heading for sec in self.sections if sec.level == 2]
+        if len(tops) > 1:
+            out += ["Contents: " + " · ".join(tops), ""]
+        for sec in self.sections:
+            out += [f"{'#' * sec.level} {sec.heading}", "", sec.markdown.rstrip(), ""]
+            for fig in sec.figures:
                 src = f"{figure_dir}/{fig.name}.png" if figure_dir else fig.data_uri()
                 out += [f"![{fig.caption}]({src})", "", f"*{fig.caption}*", ""]
         out += ["## Software", "", md_table(["package", "version"], [list(v) for v in self.versions]), ""]
@@ -86,23 +99,30 @@ class Report:
     # -- HTML -----------------------------------------------------------------------
     def body_html(self) -> str:
         esc = html.escape
+        h2 = "font-size:18px;margin:22px 0 6px;border-bottom:2px solid #2b6f8f;"
+        h3 = "font-size:15px;margin:14px 0 4px;color:#1f4e66;"
         parts = [
             '<div class="convdiag-report" style="font-family:system-ui,sans-serif;font-size:14px;'
-            'max-width:980px;line-height:1.45;">',
+            'max-width:1000px;line-height:1.45;">',
             f'<h1 style="font-size:22px;margin:6px 0;">{esc(self.title)}</h1>',
             f'<div style="color:#555;">Created {esc(self.created)}.</div>',
         ]
-        for s in self.sections:
-            parts.append(f'<h2 style="font-size:17px;margin:18px 0 6px;border-bottom:2px solid #2b6f8f;">{esc(s.heading)}</h2>')
-            parts.append(s.html)
-            for fig in s.figures:
+        if self.summary:
+            parts.append(f'<h2 style="{h2}">Summary</h2>')
+            parts.append(html_table(list(SUMMARY_HEADERS), [list(r) for r in self.summary], "rlllllrl"))
+        for i, sec in enumerate(self.sections):
+            style = h2 if sec.level == 2 else h3
+            tag = "h2" if sec.level == 2 else "h3"
+            parts.append(f'<{tag} id="part-{i}" style="{style}">{esc(sec.heading)}</{tag}>')
+            parts.append(sec.html)
+            for fig in sec.figures:
                 parts.append(
                     f'<figure style="margin:10px 0;"><img alt="{esc(fig.caption)}" src="{fig.data_uri()}" '
                     f'style="max-width:100%;"><figcaption style="color:#444;font-size:13px;">{esc(fig.caption)}'
                     "</figcaption></figure>"
                 )
         rows = "".join(f"<tr><td>{esc(a)}</td><td><code>{esc(b)}</code></td></tr>" for a, b in self.versions)
-        parts.append('<h2 style="font-size:17px;margin:18px 0 6px;border-bottom:2px solid #2b6f8f;">Software</h2>')
+        parts.append(f'<h2 style="{h2}">Software</h2>')
         parts.append(f'<table style="border-collapse:collapse;font-size:13px;">{rows}</table>')
         parts.append(f'<p style="color:#7a4b00;background:#fff6e0;padding:6px 10px;">{esc(self.caution)}</p>')
         parts.append("</div>")
@@ -172,7 +192,7 @@ def _versions() -> tuple[tuple[str, str], ...]:
     return tuple(out)
 
 
-def render_png(draw: Callable[[Any], Any], *, size: tuple[float, float] = (7.0, 4.2), dpi: int = 110) -> bytes:
+def render_png(draw: Callable[[Any], Any], *, size: tuple[float, float] = (7.0, 4.0), dpi: int = 90) -> bytes:
     """Draw with ``draw(figure)`` on a fresh Agg figure (no pyplot state) and return PNG bytes."""
     from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.figure import Figure as MplFigure
@@ -183,186 +203,6 @@ def render_png(draw: Callable[[Any], Any], *, size: tuple[float, float] = (7.0, 
     buf = io.BytesIO()
     fig.savefig(buf, format="png")
     return buf.getvalue()
-
-
-def _source_of(run: Any) -> str:
-    problem = getattr(run, "source", None)
-    if problem is None:
-        return ""
-    if getattr(problem, "expression", None) is not None:
-        return ""
-    raw = getattr(problem, "raw", None)
-    try:
-        text = inspect.getsource(raw) if raw is not None else ""
-    except (OSError, TypeError):
-        return ""
-    lines = text.splitlines()
-    if len(lines) > 40:
-        lines = lines[:40] + ["    ...  (truncated)"]
-    return "\n".join(lines)
-
-
-def _settings_rows(run: Any) -> list[list[str]]:
-    from ._text import fmt
-
-    s = run.settings
-    rows = [
-        ["function", str(run.problem)],
-        ["method", f"{run.method_title} ({run.method})"],
-        ["starts", ", ".join(fmt(v, 17) for v in run.starts)],
-    ]
-    if run.bracket is not None:
-        rows.append(["bracket", f"[{fmt(run.bracket[0], 17)}, {fmt(run.bracket[1], 17)}]"])
-    if run.params:
-        rows.append(["parameters", ", ".join(f"{k} = {v:g}" for k, v in run.params.items())])
-    rows += [
-        ["stopping rule", f"step or bracket width < {s.xtol:g} + {s.rtol:.3g}·|x|" + (f", or |f| ≤ {s.ftol:g}" if s.ftol else "")],
-        ["budgets", f"{s.max_evals} evaluations" + (f", {s.max_time:g} s" if s.max_time else "")],
-    ]
-    if run.derivative_source:
-        rows.append(["derivative", run.derivative_source])
-    if run.arithmetic != "real":
-        rows.append(["arithmetic", f"{run.arithmetic}" + (f" ({run.digits} digits)" if run.digits else "")])
-    rows.append(["stopped", f"{run.stop_reason}: {run.message}"])
-    return rows
-
-
-# -- section builders ------------------------------------------------------------------
-def _run_sections(run: Any, name: str, diagnosis: Any = None) -> list[Section]:
-    from ..core._order import estimate_order
-    from ._order_text import order_html, order_text
-    from ._step_figures import ProgressDisplay
-    from ._text import html_table, run_html, run_rows
-
-    sections: list[Section] = []
-    rows = _settings_rows(run)
-    source = _source_of(run)
-    md = md_table(["setting", "value"], rows)
-    page = html_table(["setting", "value"], rows, "ll")
-    if source:
-        md += f"\n\nThe function's source:\n\n```python\n{source}\n```"
-        page += f'<pre style="background:#f4f6f8;padding:8px;font-size:12px;">{html.escape(source)}</pre>'
-    sections.append(Section(f"{run.method_title} on {run.problem}: setup", md, page))
-
-    headers, table_rows, _ = run_rows(run)
-    figures: list[Figure] = []
-    if run.source is not None and (run.steps or run.starts):
-        def draw_step(fig: Any) -> None:
-            _draw_run_step(run, fig.add_subplot(1, 1, 1))
-
-        figures.append(Figure(f"{name}-function", render_png(draw_step), "f near the iterates, with the last step's local model."))
-    sections.append(
-        Section(
-            "Iterates",
-            md_table(headers, table_rows),
-            run_html(run),
-            tuple(figures),
-        )
-    )
-
-    estimate = estimate_order(run)
-
-    def draw_progress(fig: Any) -> None:
-        ax1, ax2 = fig.subplots(1, 2)
-        ProgressDisplay.from_run(run, estimate).plot(ax1, ax2)
-
-    progress = Figure(
-        f"{name}-progress", render_png(draw_progress, size=(9.0, 3.6)),
-        "Step size, |f| and error on a log scale against iteration (left) and function evaluations (right).",
-    )
-    sections.append(Section("Observed order of convergence", _pre_md(order_text(estimate)), order_html(estimate), (progress,)))
-
-    if diagnosis is None:
-        diagnosis = _diagnose(run)
-    if diagnosis is not None:
-        sections.append(Section("Diagnosis", _pre_md(diagnosis.to_text()), diagnosis.to_html()))
-    return sections
-
-
-def _draw_run_step(run: Any, ax: Any) -> None:
-    """The last step with its model; a failed evaluation is marked where it happened."""
-    import math
-
-    from ._step_figures import StepDisplay, auto_xlim
-
-    failure = run.failure
-    fx = failure.x if failure is not None and failure.x is not None and math.isfinite(failure.x) else None
-    xlim = None
-    if fx is not None:
-        known = [float(v) for v in run.iterates if math.isfinite(v)]
-        xlim = auto_xlim(known + [fx], core=known + [fx])
-    d = StepDisplay.from_run(run, xlim=xlim)
-    if not run.steps:
-        d.title = f"{run.method_title}: the start{'s' if len(run.starts) > 1 else ''}"
-    d.plot(ax)
-    if fx is not None:
-        ax.axvline(fx, color="#b3261e", ls=":", lw=1.3, zorder=2)
-        ax.annotate(
-            f"f failed at x = {fx:.4g}\n({failure.reason})",
-            xy=(fx, 0.0),
-            xytext=(6, 10),
-            textcoords="offset points",
-            fontsize=8,
-            color="#b3261e",
-        )
-
-
-def _diagnose(run: Any) -> Any:
-    try:
-        from ..core._diagnose import diagnose
-    except ImportError:  # the diagnosis layer is optional at this point
-        return None
-    return diagnose(run)
-
-
-def _pre_md(text: str) -> str:
-    return "```text\n" + text.rstrip() + "\n```"
-
-
-def _generic_section(item: Any, heading: str, figure: Figure | None = None) -> Section:
-    return Section(heading, _pre_md(item.to_text()), item.to_html(), (figure,) if figure is not None else ())
-
-
-def _sections_for(item: Any, index: int) -> list[Section]:
-    kind = type(item).__name__
-    name = f"item{index}"
-    if kind == "Run":
-        return _run_sections(item, name)
-    if kind == "Diagnosis":
-        run = getattr(item, "run", None)
-        if run is not None:
-            return _run_sections(run, name, diagnosis=item)
-        return [_generic_section(item, "Diagnosis")]
-    if kind == "Comparison":
-        from ._order_figures import EqualWorkDisplay
-
-        fig = Figure(
-            f"{name}-equal-work",
-            render_png(lambda f: EqualWorkDisplay.from_comparison(item).plot(f.add_subplot(1, 1, 1))),
-            "Error against function evaluations for each method (the equal-work view).",
-        )
-        return [_generic_section(item, f"Methods compared on {item.problem}", fig)]
-    if kind == "BracketSearch":
-        from ._brackets_figures import BracketsDisplay
-
-        fig = Figure(
-            f"{name}-brackets",
-            render_png(lambda f: BracketsDisplay.from_search(item).plot(f.add_subplot(1, 1, 1))),
-            "f over the searched range, each candidate marked by kind.",
-        )
-        return [_generic_section(item, f"Brackets for {item.problem}", fig)]
-    if kind == "OrderEstimate":
-        return [_generic_section(item, "Observed order of convergence")]
-    if hasattr(item, "to_text") and hasattr(item, "to_html"):
-        figure = None
-        draw = getattr(item, "report_figure", None)
-        if callable(draw):
-            figure = Figure(f"{name}-figure", render_png(draw), getattr(item, "report_caption", kind))
-        return [_generic_section(item, getattr(item, "report_heading", kind), figure)]
-    raise ParameterError(
-        f"make_report cannot document a {kind}. Pass runs, diagnoses, comparisons, bracket searches, "
-        "order estimates or sweeps."
-    )
 
 
 def make_report(*items: Any, title: str | None = None) -> Report:
@@ -385,17 +225,24 @@ def make_report(*items: Any, title: str | None = None) -> Report:
     >>> from convdiag.report import make_report
     >>> run = convdiag.solve("x**2 - 2", "secant", start=1.0)
     >>> rep = make_report(run)
-    >>> [s.heading for s in rep.sections][:2]
-    ['secant on x**2 - 2: setup', 'Iterates']
+    >>> [s.heading for s in rep.sections]
+    ['secant on x**2 - 2', 'Setup', 'Diagnosis', 'Iterates', 'Observed order of convergence']
+    >>> rep.summary[0][4]  # the verdict
+    'converged'
     """
     if not items:
         raise ParameterError("make_report needs at least one result to document (a run, a diagnosis, ...).")
+    from ._document_items import document_item
+
     sections: list[Section] = []
+    summary: list[tuple[str, ...]] = []
     for i, item in enumerate(items):
-        sections.extend(_sections_for(item, i))
+        doc = document_item(item, i, numbered=len(items) > 1)
+        sections.extend(doc.sections)
+        summary.append((str(i + 1), *doc.summary))
     if title is None:
         first = items[0]
         label = getattr(first, "problem", None) or getattr(getattr(first, "run", None), "problem", None) or ""
         title = f"Solver behaviour: {label}" if label else "Solver behaviour"
     created = _dt.datetime.now(_dt.timezone.utc).replace(microsecond=0).isoformat()
-    return Report(title, tuple(sections), _versions(), created)
+    return Report(title, tuple(sections), _versions(), created, summary=tuple(summary))

@@ -103,7 +103,7 @@ def _table(e: OrderEstimate) -> tuple[list[str], list[list[str]]]:
             rows.append(["…", "", "", "", ""])
         last = k
         L = e.log_errors[k]
-        err = "0" if L == -math.inf else (f"1e{L:.1f}" if math.isfinite(L) and L < -300 else fmt(e.errors[k], 4))
+        err = "0" if L == -math.inf else (_tiny(L) if math.isfinite(L) and L < -300 else fmt(e.errors[k], 4))
         q = e.orders[k] if k < len(e.orders) else math.nan
         rho = e.log_errors[k + 1] - L if k + 1 < n else math.nan
         rho_s = fmt(10.0**rho, 4) if math.isfinite(rho) and rho < 300 else ""
@@ -111,6 +111,13 @@ def _table(e: OrderEstimate) -> tuple[list[str], list[list[str]]]:
         rows.append([str(k), err, fmt(q, 4) if math.isfinite(q) else "", rho_s, mark])
     what = {"successive differences": "|x_(k+1) − x_k|", "residuals": "|f(x_k)|"}.get(e.reference, "e_k")
     return ["k", what, "q_k", "ratio to next", "window"], rows
+
+
+def _tiny(log10_value: float) -> str:
+    """A number below double range from its log10: 10**-335.8 -> '1.58e-336'."""
+    exponent = math.floor(log10_value)
+    mantissa = 10 ** (log10_value - exponent)
+    return f"{mantissa:.3g}e{exponent}"
 
 
 def order_text(e: OrderEstimate) -> str:

@@ -33,6 +33,8 @@ def fmt(v: Any, digits: int = 6) -> str:
         return "NaN"
     if math.isinf(f):
         return "∞" if f > 0 else "−∞"
+    if digits >= 17:
+        return repr(f)  # the shortest text that reads back as the same double
     return f"{f:.{digits}g}"
 
 
@@ -91,12 +93,31 @@ def _root_label(run: Run) -> str:
     return "root" if run.converged else "best point so far"
 
 
+_EPS = 2.220446049250313e-16
+
+
+def tolerance_rule(run: Run) -> str:
+    """The stopping rule in words: 'step < 8.9e-16·|x| (4 machine epsilons)', or with an absolute part."""
+    s = run.settings
+    bracketing = run.bracket is not None and bool(run.steps) and run.steps[0].bracket is not None
+    rule = "bracket width" if bracketing else "step"
+    rel = f"{s.rtol:.2g}·|x|"
+    if run.arithmetic != "mpmath" and s.rtol > 0 and abs(s.rtol / _EPS - round(s.rtol / _EPS)) < 1e-9:
+        rel += f" ({round(s.rtol / _EPS)} machine epsilons)"
+    if s.xtol == 0:
+        text = f"{rule} < {rel}" if s.rtol > 0 else f"{rule} = 0"
+    elif s.rtol == 0:
+        text = f"{rule} < {s.xtol:g}"
+    else:
+        text = f"{rule} < {s.xtol:g} + {rel}"
+    if s.ftol > 0:
+        text += f", or |f| ≤ {s.ftol:g}"
+    return text + ", or f = 0 exactly"
+
+
 def _tolerance_line(run: Run) -> str:
     s = run.settings
-    rule = "bracket width" if run.bracket is not None and run.steps and run.steps[0].bracket is not None else "step"
-    parts = [f"stop when {rule} ≤ {s.xtol:g} + {s.rtol:.2g}·|x|"]
-    if s.ftol > 0:
-        parts.append(f"or |f| ≤ {s.ftol:g}")
+    parts = ["stop when " + tolerance_rule(run)]
     parts.append(f"budget {s.max_evals} evaluations")
     if s.max_time is not None:
         parts.append(f"{s.max_time:g} s")
