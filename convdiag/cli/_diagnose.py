@@ -27,7 +27,7 @@ def _cmd_diagnose(args: argparse.Namespace) -> int:
     f = function_arg(args.function) if args.function else None
     fprime = function_arg(args.fprime) if args.fprime else None
     d = diagnose(seq, f=f, fprime=fprime, root=args.root, xtol=args.xtol, ftol=args.ftol, method=args.method,
-                 probe=not args.no_probe)
+                 bracket=None if args.bracket is None else tuple(args.bracket), probe=not args.no_probe)
     if args.json:
         out: dict[str, Any] = d.to_dict()
         out["file"] = args.file
@@ -48,6 +48,9 @@ def _check(args: argparse.Namespace) -> str:
         v = getattr(args, name)
         if v is not None and not (v >= 0 and math.isfinite(v)):
             return f"--{name} must be a finite number >= 0, got {v!r}"
+    if args.bracket is not None and not (all(math.isfinite(v) for v in args.bracket)
+                                         and args.bracket[0] < args.bracket[1]):
+        return f"--bracket needs two finite numbers LO < HI, got {args.bracket[0]!r} {args.bracket[1]!r}"
     if args.fprime and not args.function:
         return "--fprime needs --function (the derivative is checked against f)"
     return ""
@@ -71,6 +74,8 @@ def register(sub: Any) -> None:
     p.add_argument("--function", metavar="EXPR", help="f as an expression (or PATH.py:FUNCTION), for extra checks")
     p.add_argument("--fprime", metavar="EXPR", help="the derivative your solver used (checked against f)")
     p.add_argument("--root", type=float, metavar="R", help="the true root, if known")
+    p.add_argument("--bracket", type=float, nargs=2, metavar=("LO", "HI"),
+                   help="where you expected the root; with --function, a remedy uses it when f changes sign there")
     p.add_argument("--xtol", type=float, metavar="T", help="the step tolerance your solver was given")
     p.add_argument("--ftol", type=float, metavar="T", help="the residual tolerance your solver was given")
     p.add_argument("--kind", choices=("auto", "iterates", "residuals"), default="auto",

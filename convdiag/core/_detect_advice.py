@@ -1,4 +1,10 @@
-"""Remedies shared by the detectors: a bracket searched near a point, or the same run with new settings."""
+"""Remedies shared by the detectors: a bracket searched near a point, or the same run with new settings.
+
+Rule: when you gave ``diagnose(..., bracket=(lo, hi))`` — where you expect the root — and f
+changes sign across it (two probes, or unchecked when the diagnosis may not evaluate f), every
+remedy that needs a bracket uses that bracket, not one searched near the start: the root you
+want is the one you bracketed, not the one nearest the start.
+"""
 
 from __future__ import annotations
 
@@ -9,11 +15,38 @@ from ._detect_path import Context, g
 from ._detect_trace import EPS, Trace
 from ._findings import Remedy
 
-__all__ = ["bracket_remedy"]
+__all__ = ["bracket_remedy", "expected_bracket"]
+
+
+def expected_bracket(ctx: Context, t: Trace) -> tuple[float, float] | None:
+    """The bracket you gave when f changes sign across it (or it cannot be checked), else None."""
+    if ctx.bracket is None:
+        return None
+    if "expected" not in ctx.cache:
+        lo, hi = ctx.bracket
+        verdict: Any = ctx.bracket
+        pr = ctx.prober
+        if pr.available and pr.remaining >= 2 and t.f is not None:
+            try:
+                f_lo, f_hi = pr(lo), pr(hi)
+            except Exception:  # noqa: BLE001 - budget
+                f_lo = f_hi = math.nan
+            if math.isfinite(f_lo) and math.isfinite(f_hi):
+                ctx.cache["expected values"] = (f_lo, f_hi)
+                if not (f_lo == 0 or f_hi == 0 or (f_lo < 0) != (f_hi < 0)):
+                    verdict = None
+        ctx.cache["expected"] = verdict
+    found: tuple[float, float] | None = ctx.cache["expected"]
+    return found
 
 
 def bracket_remedy(ctx: Context, t: Trace, near: float | None, why: str) -> Remedy:
-    """Hybrid on the best root bracket found near ``near`` (searched on the probe budget)."""
+    """Hybrid on the bracket you gave (when f changes sign across it), else on a root bracket found near ``near``."""
+    user = expected_bracket(ctx, t)
+    if user is not None:
+        checked = "expected values" in ctx.cache
+        return Remedy("hybrid", bracket=user, note=why + "; the bracket you expected the root in" + (
+            " (f changes sign across it)" if checked else " (not checked: the diagnosis may not evaluate f)"))
     if near is None or not math.isfinite(near):
         near = float(t.xs[t.best_index()]) if t.n else 0.0
     key = f"bracket near {near!r}"

@@ -6,7 +6,11 @@ converged
     The run met its own rule (a recording or sequence: its last step is at most the
     tolerance, or f = 0). Another root is reported when f changes sign between 11
     points spaced evenly over [x_0 − d, x_0 + d], d = |root − x_0|, closer to x_0 than
-    the root found.
+    the root found. A root outside the bracket you expected (``diagnose(...,
+    bracket=...)``) is reported; when f changes sign across that bracket the remedy is
+    hybrid on it (also when a nearer root was jumped over: the bracket says which root
+    you want); otherwise the remedy is the nearer root, or a bracket searched near the
+    middle of yours.
 """
 
 from __future__ import annotations
@@ -16,6 +20,8 @@ import math
 
 import numpy as np
 
+from ._detect_advice import expected_bracket
+from ._detect_order import window_note
 from ._detect_path import Context, g
 from ._detect_trace import EPS, Trace, tolerance, trace_converged
 from ._findings import Evidence, Finding, Remedy
@@ -80,7 +86,9 @@ def detect_converged(t: Trace, ctx: Context) -> Finding | None:
     if t.total_evals is not None:
         ev.append(("evaluations", t.total_evals, ""))
     if est is not None:
-        ev.append(("convergence", est.label_text, est.reference))
+        wandered = window_note(t, ctx)
+        ev.append(("convergence", est.label_text, est.reference + ("; over a window that includes the wandering "
+                                                                   "before the final approach" if wandered else "")))
     if t.stop_reason:
         ev.append(("stop", t.stop_reason, ""))
     if t.complex_root is not None:
@@ -89,10 +97,16 @@ def detect_converged(t: Trace, ctx: Context) -> Finding | None:
     advice = "Nothing to change."
     remedy = None
     if ctx.bracket is not None and not lo_hi_contains(*ctx.bracket, x):
-        ev.append(("expected bracket", ctx.bracket, "the root found lies outside it"))
+        user = expected_bracket(ctx, t)
+        values = ctx.cache.get("expected values")
+        ev.append(("expected bracket", ctx.bracket, "the root found lies outside it"
+                   + ("; f changes sign across it" if user is not None and values is not None else "")))
         summary += f", which lies outside the bracket [{g(ctx.bracket[0])}, {g(ctx.bracket[1])}] you expected"
-        remedy = Remedy("hybrid", bracket=ctx.bracket, note="a bracketing method stays inside the bracket")
-        advice = "To get the root inside the bracket, use " + remedy.describe() + "."
+        if user is not None:
+            remedy = Remedy("hybrid", bracket=user, note="a bracketing method stays inside the bracket you expected")
+            advice = "To get the root inside the bracket you expected, use " + remedy.describe() + "."
+        elif values is not None:
+            ev.append(("f at its ends", values, "the same sign: the bracket you expected holds no sign change"))
     other = _other_root(t, ctx, x)
     if other is not None:
         a, b, dist = other
@@ -101,7 +115,15 @@ def detect_converged(t: Trace, ctx: Context) -> Finding | None:
         ev.append(("nearer sign change", (a, b), note))
         summary += (f", but f changes sign in [{g(a, 8)}, {g(b, 8)}], closer to the start {g(t.starts[0])}: "
                     "the iteration jumped over a nearer root")
-        remedy = Remedy("hybrid", bracket=(min(a, b), max(a, b)), note="the root nearest the start")
-        advice = "If you wanted the root nearest the start, use " + remedy.describe() + "."
+        if remedy is None:
+            remedy = Remedy("hybrid", bracket=(min(a, b), max(a, b)), note="the root nearest the start")
+            advice = "If you wanted the root nearest the start, use " + remedy.describe() + "."
+        else:
+            advice += f" (f also changes sign nearer the start, in [{g(a, 10)}, {g(b, 10)}].)"
+    if remedy is None and ctx.bracket is not None and not lo_hi_contains(*ctx.bracket, x):
+        remedy = ctx.bracket_remedy(t, (ctx.bracket[0] + ctx.bracket[1]) / 2,
+                                    "a bracket searched near the middle of the one you expected")
+        advice = ("f does not change sign across the bracket you expected; to look for a root near it, use "
+                  + remedy.describe() + ".")
     return Finding("converged", summary + ".", tuple(ev), advice, remedy, (k,),
                    tag="another root nearer the start" if other is not None else "")

@@ -1,23 +1,21 @@
-"""Detectors that spend a few extra evaluations of f: noise, tolerance, pole, flat zero set.
+"""Detectors that spend a few extra evaluations of f: tolerance, pole, flat zero set.
 
 Every evaluation goes through the diagnosis's :class:`~convdiag.core._detect_trace.Prober`
-(counted, budgeted). Rules and thresholds (basis in brackets):
+(counted, budgeted). The noise floor and the rounding level of f are in ``_detect_noise``
+(re-exported here). Rules and thresholds (basis in brackets):
 
-noise-floor
-    When the run did not converge (and neither cycled nor ran away) Moré and Wild's
-    estimate is taken at the best iterate with the default spacing and with spacing
-    (spread of the stalled iterates)/8 [the noise module's advice for piecewise smooth
-    noise]; noise is found when a status is "ok" (above 100 × rounding) and the stalled
-    |f| is within 100 × that level. Attainable accuracy in x: level/|f'| (Wilkinson's
-    condition number of a simple root, from memory), f' from a central difference over
-    max(16 × spread, 1e-4·max(1, |x|)).
 unattainable-tolerance
     xtol + rtol·|x| below the gap between adjacent doubles at the root (IEEE 754), or a
-    residual tolerance ftol below the rounding level of f there (Moré and Wild's level
-    at the best iterate, or the noise module's rounding estimate eps·max(|f|, |x·f'|)
-    when no level was found), or a run that stalled at that rounding floor (|f| within
-    100 × the level) with a tolerance below rounding level/|f'|. A high-precision run
-    compares with its own spacing, 10^-digits relative.
+    residual tolerance ftol below the rounding level of f there, or a run that did not
+    converge, reached the rounding floor of f (its best |f| within 100 × the floor) and asks
+    for a step tolerance below the accuracy rounding allows, max(gap, ε_f/|f'|) — and, when
+    its last iterates straddle the root at that floor, at least the smallest step they keep
+    taking there (steps |f|/|f'| of a rounding-sized f, rounded to doubles). The
+    rounding level ε_f is ``_detect_noise.rounding_level``: the largest of Moré and Wild's
+    level, eps·Σ|terms| for an expression that is a sum, and the median |f| over stalled
+    iterates that straddle the root (a run caught in a cycle at the rounding level of f
+    keeps taking steps |f|/|f'| of that size). A high-precision run compares with its own
+    spacing, 10^-digits relative.
 pole
     The bracket history is judged by ``_signchange.judge_refinement`` (|f| ~ width^q:
     root q ≥ 0.3, pole q ≤ −0.3, jump at few-ulp width): first over the whole history
@@ -33,108 +31,19 @@ flat zero set
 from __future__ import annotations
 
 import math
-from typing import Any
 
 import numpy as np
 
 from ._detect_advice import _remedy_same
+from ._detect_noise import NOISE_NEAR, detect_noise, noise_explains, rounding_level
 from ._detect_path import Context, g
 from ._detect_trace import EPS, Trace, trace_converged
 from ._findings import Evidence, Finding
 
 __all__ = ["detect_flat_zero", "detect_noise", "detect_pole", "detect_unattainable", "noise_explains"]
 
-NOISE_NEAR = 100.0
 POLE_SPAN = 64.0
 ZERO_DELTA = 1e-6
-
-
-def _noise(t: Trace, ctx: Context, x: float, spread: float) -> Any:
-    from ._noise import estimate_noise
-
-    if "noise" in ctx.cache:
-        return ctx.cache["noise"]
-    pr = ctx.prober
-    found: list[Any] = []
-    for h in [None] + ([spread / 8] if spread > 0 else []):
-        room = pr.remaining - 2  # keep two evaluations for the slope that turns noise into an accuracy in x
-        if room < 9:
-            break
-        found.append(estimate_noise(None, x, h=h, evaluate=pr, max_attempts=max(1, min(3, room // 9))))
-    ok = [e for e in found if e.status == "ok"]
-    best = max(ok, key=lambda e: e.level) if ok else (next((e for e in found if e.found), None))
-    ctx.cache["noise"] = best
-    return best
-
-
-def noise_explains(t: Trace, ctx: Context) -> bool:
-    """f is noisy (Moré–Wild status "ok") and the later iterates sit at that noise floor.
-
-    Used to keep a "rate" measured on iterates that wander in the noise from being read as a
-    multiple root, a wrong derivative or slow convergence.
-    """
-    if t.f is None or t.fs is None or t.n < 4 or ("noise" not in ctx.cache and ctx.prober.remaining < 11):
-        return False
-    tail = t.xs[-min(8, t.n):]
-    spread = float(np.ptp(tail[np.isfinite(tail)])) if np.any(np.isfinite(tail)) else 0.0
-    est = _noise(t, ctx, float(t.xs[t.best_index()]), spread)
-    if est is None or est.status != "ok":
-        return False
-    late = np.abs(t.fs[t.n // 2:])
-    late = late[np.isfinite(late)]
-    if len(late) and float(np.median(late)) <= NOISE_NEAR * est.level:
-        ctx.notes.append(f"the later iterates sit at the noise floor of f (level {est.level:.2g}): a rate measured "
-                         "there describes the noise, not the convergence")
-        return True
-    return False
-
-
-def detect_noise(t: Trace, ctx: Context) -> Finding | None:
-    pr = ctx.prober
-    if t.f is None or t.n < 4 or trace_converged(t) or pr.remaining < 11:
-        return None
-    k = t.best_index()
-    x = float(t.xs[k])
-    tail = t.xs[-min(8, t.n):]
-    spread = float(np.ptp(tail[np.isfinite(tail)])) if np.any(np.isfinite(tail)) else 0.0
-    est = _noise(t, ctx, x, spread)
-    if est is None or est.status != "ok":
-        return None
-    ftail = np.abs(t.fs[-min(8, t.n):]) if t.fs is not None else np.zeros(0)
-    fmed = float(np.median(ftail)) if len(ftail) else math.nan
-    if not fmed <= NOISE_NEAR * est.level:
-        ctx.notes.append(f"f carries noise of about {est.level:.2g}, but the stalled |f| ({fmed:.2g}) is far above it")
-        return None
-    D = max(16 * spread, 1e-4 * max(1.0, abs(x)))
-    try:
-        slope = (pr(x + D) - pr(x - D)) / (2 * D)
-    except Exception:  # noqa: BLE001 - budget
-        slope = math.nan
-    from ._noise import attainable_accuracy
-
-    acc = attainable_accuracy(est.level, slope) if math.isfinite(slope) else math.nan
-    ctx.cache["attainable"] = acc
-    xtol = 3 * acc if math.isfinite(acc) else None
-    remedy = _remedy_same(t, xtol=xtol, ftol=3 * est.level,
-                          note="tolerances the noise allows: 3 × the attainable accuracy in x, 3 × the noise in f")
-    ev: list[Evidence] = [
-        ("noise level in f", est.level, f"Moré–Wild estimate (standard deviation) at x = {g(x, 10)}"),
-        ("times rounding", est.above_rounding, f"rounding level {est.rounding:.2g}"),
-        ("sample spacing", est.h, f"{est.evaluations} evaluations, difference order {est.order}"),
-        ("slope f'", slope, f"central difference over ±{D:.2g}"),
-        ("attainable accuracy in x", acc, "noise/|f'|: no method resolves the root better"),
-        ("stalled iterates", (float(np.min(tail)), float(np.max(tail))), f"last {len(tail)} iterates"),
-        ("median |f| there", fmed, "the residual the noise allows"),
-    ]
-    return Finding(
-        "noise-floor",
-        f"f carries computational noise of about {est.level:.2g} ({est.above_rounding:.3g} times rounding), so the "
-        f"iterates can only wander within about {g(acc, 3)} of the root; they stalled there.",
-        tuple(ev),
-        f"Ask for no more than the noise allows: xtol ≥ {g(3 * acc, 3)} or ftol ≥ {g(3 * est.level, 3)}; or make f "
-        "less noisy (tighten the tolerance of the inner solver, quadrature or series inside it). Remedy: "
-        + remedy.describe() + ".",
-        remedy, tuple(range(t.n - len(tail), t.n)), tag=f"level {est.level:.2g}")
 
 
 def detect_unattainable(t: Trace, ctx: Context) -> Finding | None:
@@ -159,19 +68,24 @@ def detect_unattainable(t: Trace, ctx: Context) -> Finding | None:
     if asked is not None and asked < gap and not (asked == 0 and exact) and reached:
         why.append(f"the step tolerance {asked:.3g} is below the gap between adjacent doubles at x ({gap:.3g})")
     needs_level = (t.ftol is not None and t.ftol > 0) or (asked is not None and not trace_converged(t))
-    if needs_level and t.f is not None and ctx.prober.remaining >= 11 and not t.digits:
-        est = _noise(t, ctx, x, 0.0)
-        if est is not None:
-            level = est.level if est.found else est.rounding
+    how = ""
+    stalled_step = math.nan
+    room = ctx.prober.remaining >= (2 if "noise" in ctx.cache else 11)  # the slope, and a noise sample if none yet
+    if needs_level and t.f is not None and room and not t.digits:
+        level, base, how, step = rounding_level(t, ctx, x)
+        if math.isfinite(level):
             h = 1e-6 * max(1.0, abs(x))
             try:
                 slope = (ctx.prober(x + h) - ctx.prober(x - h)) / (2 * h)
             except Exception:  # noqa: BLE001 - budget
                 slope = math.nan
-            if math.isfinite(slope) and slope != 0 and math.isfinite(level):
+            if math.isfinite(slope) and slope != 0:
                 attain = max(gap, level / abs(slope))
+            if math.isfinite(step) and not trace_converged(t):
+                attain = max(attain, step)
+                stalled_step = step
             f_best = abs(float(t.fs[k])) if t.fs is not None else math.inf
-            at_floor = f_best <= NOISE_NEAR * level  # the run reached the rounding floor of f
+            at_floor = f_best <= NOISE_NEAR * base  # the run reached the rounding floor of f
             near_root = at_floor or trace_converged(t)
             if t.ftol is not None and 0 < t.ftol < level and not exact and near_root:
                 why.append(f"the residual tolerance {t.ftol:.3g} is below the rounding level of f near the root "
@@ -186,8 +100,12 @@ def detect_unattainable(t: Trace, ctx: Context) -> Finding | None:
     ev.append(("gap between doubles at x", gap, f"x = {g(x, 17)}" + (f"; {t.digits}-digit numbers" if t.digits
                                                                               else "")))
     if math.isfinite(level):
-        ev.append(("rounding level of f", level, "Moré–Wild estimate at the root"))
-    ev.append(("attainable accuracy in x", attain, "the larger of the gap and rounding level/|f'|"))
+        ev.append(("rounding level of f", level, how))
+    if math.isfinite(stalled_step):
+        ev.append(("smallest stalled step", stalled_step,
+                   "the smallest step the iterates keep taking at the rounding floor (they straddle the root)"))
+    ev.append(("attainable accuracy in x", attain, "the largest of the gap, rounding level/|f'|"
+               + (" and the smallest stalled step" if math.isfinite(stalled_step) else "")))
     new_xtol = 2 * attain
     remedy = _remedy_same(t, xtol=new_xtol, ftol=(4 * level if t.ftol and math.isfinite(level) else None),
                           note="tolerances double precision can meet")

@@ -1,7 +1,8 @@
 """Detectors that read the rate of convergence: multiple root, wrong derivative, slow, budget.
 
-They rest on the observed order of convergence (:func:`~convdiag.core._order.estimate_order`).
-Rules and thresholds (basis in brackets):
+They rest on the observed order of convergence (:func:`~convdiag.core._order.estimate_order`), and
+only on a window where a rate may be read (``_detect_order.rate_order``: no error growing
+2-fold inside the window of an open method). Rules and thresholds (basis in brackets):
 
 multiple-root
     Linear convergence (not at a measured noise floor), f' at the best iterate below
@@ -42,8 +43,9 @@ from typing import Any
 import numpy as np
 
 from ._detect_advice import _remedy_same
+from ._detect_noise import noise_explains
+from ._detect_order import rate_order
 from ._detect_path import Context, g
-from ._detect_probe import noise_explains
 from ._detect_trace import Trace, _shrinking, tolerance, trace_converged
 from ._findings import Evidence, Finding, Remedy
 
@@ -150,7 +152,7 @@ def _residual_multiplicity(t: Trace, est: Any) -> tuple[int | None, float]:
 
 
 def detect_multiple_root(t: Trace, ctx: Context) -> Finding | None:
-    est = ctx.order
+    est = rate_order(t, ctx)
     if est is None or est.label != "linear" or est.rate is None:
         return None
     if ctx.cache.get("derivative", {}).get("bad"):
@@ -204,7 +206,7 @@ def detect_multiple_root(t: Trace, ctx: Context) -> Finding | None:
 
 
 def detect_rate_derivative(t: Trace, ctx: Context) -> Finding | None:
-    est = ctx.order
+    est = rate_order(t, ctx)
     if est is None or est.label != "linear" or est.rate is None or t.method not in _DERIVATIVE_METHODS:
         return None
     if "derivative" in ctx.cache:  # your derivative was checked against f and agreed
@@ -261,7 +263,7 @@ def _bisection_evals(t: Trace) -> int | None:
 
 
 def detect_slow(t: Trace, ctx: Context) -> Finding | None:
-    est = ctx.order
+    est = rate_order(t, ctx)
     if est is None or est.label not in ("linear", "sublinear") or est.rate is None:
         return None
     d = est.evals_per_step or t.evals_per_step or 1.0
@@ -317,7 +319,7 @@ def detect_budget(t: Trace, ctx: Context) -> Finding | None:
         return None
     if t.n == 0 and t.fs is None:
         return None
-    est = ctx.order if t.n >= 3 or t.n == 0 else None
+    est = rate_order(t, ctx) if t.n >= 3 or t.n == 0 else None
     need, how = evals_needed(t, est)
     if need is None:
         return None

@@ -24,6 +24,7 @@ import math
 import numpy as np
 
 from ._detect_advice import _bracketing
+from ._detect_order import rate_order
 from ._detect_path import Context, g
 from ._detect_trace import EPS, Trace
 from ._findings import Evidence, Finding, Remedy
@@ -121,7 +122,7 @@ def check_derivative(t: Trace, ctx: Context) -> Finding | None:
     ratio = gv / d if d else math.inf
     ev.append(("points checked", len(rows), f"{len(bad)} disagree"))
     rate_note = ""
-    est = ctx.order
+    est = rate_order(t, ctx)
     if est is not None and est.label == "linear" and est.rate is not None:
         rate_note = f" Newton with a wrong slope g converges only linearly, rate |1 − f'/g| ({est.rate:.3g} here)."
     x0 = t.starts[0] if t.starts else float(t.xs[0])

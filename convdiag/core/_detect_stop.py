@@ -7,6 +7,13 @@ counts as converged when its last step is within the tolerance (the one given, e
 when f is exactly 0, or when the step it would take next (extrapolated at least
 linearly from the last two) is within the tolerance: a solver that stops on its
 step computes that step but does not evaluate f there.
+
+An iteration has *stalled* (:func:`stalled_tail`) when its last min(8, n) iterates
+lie within a spread S ≤ 1e-2 × the distance it travelled to get there (the largest
+|x_k − x_best| over the run) and S ≤ 1e-2·max(1, |x_best|) [common practice, no
+source: a hundredth of the way and of the size of x]. Only a stalled iteration
+says something about the floor of f (noise or rounding); iterates still thrown
+about are not sampled for it.
 """
 
 from __future__ import annotations
@@ -19,11 +26,14 @@ import numpy as np
 if TYPE_CHECKING:
     from ._detect_trace import Trace
 
-__all__ = ["SEQ_TOL", "tolerance", "trace_converged"]
+__all__ = ["SEQ_TOL", "STALL_SPAN", "STALL_TAIL", "stalled_tail", "tolerance", "trace_converged"]
 
 EPS = 2.220446049250313e-16
 #: step tolerance assumed for a recording or sequence when none is given (see the module docstring)
 SEQ_TOL = 1e-6
+#: iterates that count as the tail of a stalled iteration, and the spread they must stay within (module docstring)
+STALL_TAIL = 8
+STALL_SPAN = 1e-2
 
 
 def tolerance(t: Trace, x: float) -> tuple[float, str]:
@@ -36,7 +46,8 @@ def tolerance(t: Trace, x: float) -> tuple[float, str]:
 
 
 def _shrinking(t: Trace, k: int = 3) -> bool:
-    s = np.abs(np.diff(t.xs[-k - 1:]))
+    with np.errstate(over="ignore", invalid="ignore"):  # iterates near the float limit: inf steps, no warning
+        s = np.abs(np.diff(t.xs[-k - 1:]))
     return bool(len(s) == k and np.all(np.isfinite(s)) and np.all(s[1:] < s[:-1]))
 
 
@@ -53,7 +64,8 @@ def trace_converged(t: Trace) -> bool:
         return True
     x = float(t.xs[-1])
     tol, _ = tolerance(t, x)
-    s = np.abs(np.diff(t.xs[-3:]))
+    with np.errstate(over="ignore", invalid="ignore"):
+        s = np.abs(np.diff(t.xs[-3:]))
     if not (math.isfinite(x) and len(s) == 2 and np.all(np.isfinite(s))):
         return False
     if s[-1] <= tol and (t.n < 4 or _shrinking(t, 2) or s[-1] == 0 or s[-1] <= 1e3 * EPS * max(abs(x), 1e-300)):
@@ -61,3 +73,21 @@ def trace_converged(t: Trace) -> bool:
     # a solver that stops on its step computes the last step but does not evaluate f there: its next step,
     # extrapolated (at least linearly) from the last two, is within the tolerance
     return bool(t.kind != "run" and s[0] > 0 and s[-1] < s[0] / 4 and s[-1] * (s[-1] / s[0]) <= tol)
+
+
+def stalled_tail(t: Trace) -> tuple[int, float, float] | None:
+    """(first index of the tail, spread S of the tail, distance travelled) when the iterates stalled, else None."""
+    n = t.n
+    if n < 4:
+        return None
+    k0 = n - min(STALL_TAIL, n)
+    tail = t.xs[k0:]
+    if not np.all(np.isfinite(tail)):
+        return None
+    best = float(t.xs[t.best_index()])
+    xs = t.xs[np.isfinite(t.xs)]
+    travelled = float(np.max(np.abs(xs - best)))
+    spread = float(np.ptp(tail))
+    if spread <= STALL_SPAN * travelled and spread <= STALL_SPAN * max(1.0, abs(best)):
+        return k0, spread, travelled
+    return None

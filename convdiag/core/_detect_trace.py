@@ -1,4 +1,4 @@
-"""What the diagnosis reads: one normalised trace of an iteration, and a budgeted prober.
+"""What the diagnosis reads: one normalised trace of an iteration (the budgeted prober is re-exported).
 
 :func:`build_trace` turns a :class:`~convdiag.core._run.Run`, a
 :class:`~convdiag.core._record.Recorder` (or its
@@ -16,11 +16,15 @@ iterates. Rules for reading it (each states its threshold):
   which the solver moved at least 100 times as far, is a difference-derivative
   probe, not an iterate (forward differences use steps near √eps ≈ 1.5e-8
   relative; an iterate of a converging solver is followed by a smaller step);
-- derivative rows (``df``) at an iterate give the slope the step used.
+- derivative rows (``df``) at an iterate give the slope the step used;
+- the diagnosis calls the recorded function as the solver did: with the extra
+  positional ``args`` of the solver's latest call (``Recorder.call_args``), so that
+  ``scipy.optimize.newton(rf, x0, args=(Re,))`` is probed as f(x, Re).
 """
 
 from __future__ import annotations
 
+import functools
 import math
 from collections.abc import Callable
 from dataclasses import dataclass, field
@@ -30,8 +34,8 @@ import numpy as np
 from numpy.typing import NDArray
 
 from ..errors import ParameterError
+from ._detect_prober import Prober
 from ._detect_stop import SEQ_TOL, _shrinking, tolerance, trace_converged
-from ._step import Halt
 
 __all__ = ["SEQ_TOL", "Prober", "Trace", "_shrinking", "build_trace", "tolerance", "trace_converged"]
 
@@ -41,50 +45,6 @@ PROBE_GAP = 1e-7
 #: ... when the solver then moved at least this many times as far
 PROBE_MOVE = 100.0
 _BRACKETING = {"bisection", "regula-falsi", "illinois", "hybrid"}
-
-
-class Prober:
-    """Calls f for the diagnosis: counts, keeps (x, f), turns failures into NaN, enforces a budget.
-
-    When the budget is spent it raises :class:`~convdiag.core._step.Halt` with reason
-    ``max-evals`` (the helpers in ``_signchange`` stop cleanly on that).
-    """
-
-    def __init__(self, f: Callable[[Any], Any] | None, budget: int, *, enabled: bool = True) -> None:
-        self.f = f
-        self.budget = budget if (enabled and f is not None) else 0
-        self.points: list[tuple[float, float]] = []
-        self.count = 0
-
-    @property
-    def remaining(self) -> int:
-        return max(0, self.budget - self.count)
-
-    @property
-    def available(self) -> bool:
-        return self.f is not None and self.remaining > 0
-
-    def spend(self, n: int) -> None:
-        """Count evaluations made by a library routine that called f directly."""
-        self.count += int(n)
-
-    def __call__(self, x: float) -> float:
-        from ._record import classify_value
-
-        if self.f is None or self.count >= self.budget:
-            raise Halt("max-evals", "the diagnosis's probe budget ran out")
-        self.count += 1
-        try:
-            with np.errstate(all="ignore"):
-                y = self.f(x)
-        except Exception:  # noqa: BLE001 - the user's code failed here: an undefined point
-            v = math.nan
-        else:
-            v, status, _ = classify_value(y)
-            if status not in ("ok", "inf"):
-                v = math.nan
-        self.points.append((float(x), v))
-        return v
 
 
 @dataclass
@@ -322,6 +282,19 @@ def _from_sequence(seq: Any, t: Trace) -> None:
     t.order_source = seq
 
 
+def _bound(recorder: Any, fallback: tuple[Any, ...] = ()) -> Callable[[Any], Any]:
+    """The recorded function called as the solver called it: f(x, *args) with the solver's extra ``args``."""
+    raw: Callable[..., Any] = getattr(recorder, "__wrapped__")  # noqa: B009 (set on the instance; mypy does not see it)
+    args = tuple(getattr(recorder, "call_args", ()) or fallback)
+    if not args:
+        return raw
+    return functools.partial(_call_with, raw, args)
+
+
+def _call_with(f: Callable[..., Any], args: tuple[Any, ...], x: Any) -> Any:
+    return f(x, *args)
+
+
 def build_trace(source: Any, *, f: Any = None, fprime: Any = None, method: str | None = None,
                 xtol: float | None = None, ftol: float | None = None) -> Trace:
     """Normalise a run, recording or sequence (see the module docstring).
@@ -346,14 +319,14 @@ def build_trace(source: Any, *, f: Any = None, fprime: Any = None, method: str |
         log = source.log if isinstance(source, Recorder) else source
         t.label = f"recording of {source.name}" if isinstance(source, Recorder) else f"recording ({log.source})"
         if isinstance(source, Recorder):
-            raw = getattr(source, "__wrapped__")  # noqa: B009 (set on the instance; mypy does not see it)
+            raw = _bound(source)
             if source._kind == F_AND_DF:  # the function returns (f, f')
                 t.f = lambda x, _r=raw: _r(x)[0]
                 t.fprime = lambda x, _r=raw: _r(x)[1]
             else:
                 t.f = raw
                 if source.fprime is not None:
-                    t.fprime = getattr(source.fprime, "__wrapped__")  # noqa: B009
+                    t.fprime = _bound(source.fprime, getattr(source, "call_args", ()))
         _from_log(log, t)
         if len(t.xs) < 3 and not (t.failures and len(t.xs) >= 1):
             raise ParameterError(

@@ -17,22 +17,27 @@ divergence               iterates or steps grow without bound, or      ``_detect
                          drift away while f decays (false convergence)
 domain-error             f raised or returned NaN; where the domain    ``_detect_path``
                          ends
-flat                     a near-zero slope threw the iterate away, a   ``_detect_flat``,
-                         stationary point, or f ≡ 0 on a stretch       ``_detect_probe``
+flat                     a near-zero slope threw the iterate away      ``_detect_flat``,
+                         (once, or again and again), a stationary      ``_detect_probe``
+                         point, or f ≡ 0 on a stretch
 pole                     the sign change is a pole or jump, not a root ``_detect_probe``
 wrong-derivative         your f' disagrees with the slope of f, or a   ``_detect_slope``,
                          derivative method is linear at a simple root  ``_detect_rate``
 multiple-root            linear rate (m−1)/m and f' → 0: multiplicity  ``_detect_rate``
-noise-floor              f is noisy; the iterates wander within        ``_detect_probe``
+noise-floor              f is noisy; the iterates wander within        ``_detect_noise``
                          noise/|f'| of the root
 unattainable-tolerance   the tolerance is below what doubles allow     ``_detect_probe``
-slow                     linear, slower than bisection per evaluation  ``_detect_rate``
+slow                     linear, slower than bisection per evaluation  ``_detect_rate``,
+                         or an exponential-like crawl: equal steps     ``_detect_crawl``
+                         while |f| falls by a constant factor
 budget                   the budget ran out while still converging     ``_detect_rate``
 =======================  ============================================  =====================
 
 The input is read by ``_detect_trace`` (runs, recordings, sequences; the
-budgeted prober), ``_detect_stop`` says when an iteration counts as converged, and
-remedies that need a bracket come from ``_detect_advice``.
+budgeted prober), ``_detect_stop`` says when an iteration counts as converged or
+stalled, ``_detect_order`` measures the order and says when a rate may be read from
+it, and remedies that need a bracket come from ``_detect_advice`` (the bracket you
+expected the root in, when f changes sign across it, before any searched one).
 
 **Precedence of the verdict.** The verdict is the first kind in ``PRECEDENCE``
 among the findings. The order puts first what makes the result wrong or
@@ -45,7 +50,13 @@ tolerance a stall at rounding level; slowness is generic; a budget is only the
 symptom), and "converged" last. When the run converged, findings that only
 describe its path (a long step from a small slope, a failed evaluation it got
 past, a stop at the noise floor within its own tolerance) do not override
-"converged".
+"converged". The same holds for repeated flat-tangent throws that the run
+recovered from.
+
+An exponential-like crawl (``_detect_crawl``) is reported as "slow" and takes the
+place of the generic rate findings (slow, budget) and of a single long throw just
+before it: the long step is the tangent overshooting from the flat side of the
+exponential, and the crawl back is what stalls the run.
 
 Once the path shows that the iterates do not converge to a root (divergence, a
 pole, a cycle, a stationary point, no sign change, or a failed evaluation the run
@@ -82,7 +93,7 @@ PRECEDENCE = (
     "converged",
 )
 #: (kind, tag) pairs that do not override a run that converged by its own rule
-_PATH_ONLY = {("flat", "small slope"), ("domain-error", None), ("noise-floor", None)}
+_PATH_ONLY = {("flat", "small slope"), ("flat", "repeated throws"), ("domain-error", None), ("noise-floor", None)}
 
 
 @dataclass(frozen=True, repr=False)
@@ -102,6 +113,9 @@ class Diagnosis(Showable):
     root : the best iterate (smallest |f|), or None.
     notes : anything else worth knowing.
     subject : what was diagnosed (the Run, Recorder, EvalLog or sequence), for reports and views.
+    expression : the text of f when f is an expression (for the command line that applies
+        the remedy), else None.
+    params : the model parameters of that expression, as (name, value) pairs.
     """
 
     verdict: str
@@ -115,6 +129,8 @@ class Diagnosis(Showable):
     root: float | None
     notes: tuple[str, ...] = ()
     subject: Any = field(default=None, compare=False, repr=False)
+    expression: str | None = None
+    params: tuple[tuple[str, float], ...] = ()
 
     @property
     def run(self) -> Any:
@@ -181,56 +197,6 @@ def _check(source: Any, xtol: Any, ftol: Any, method: Any, root: Any, max_probe_
         raise ParameterError.expected("bracket", owner, "a pair (lo, hi) of finite floats with lo < hi", bracket)
 
 
-def _order_estimate(t: Any, root: float | None, probe: bool, notes: list[str]) -> Any:
-    """The observed order (never raises: a failure becomes a note)."""
-    import numpy as np
-
-    from ._order import estimate_order
-    from ._sequence import IterationSequence
-
-    try:
-        if t.kind == "run":
-            # no high-precision replay: the detectors read linear rates and the run's own errors, which the run
-            # has in plenty; a replay costs up to three more runs at 60-540 digits
-            return estimate_order(t.order_source, root=root, replay=False)
-        if t.kind == "recording":
-            ref: Any = root
-            if ref is None and probe and t.problem is not None and t.n:
-                ref = _reference(t, notes)
-            seq = IterationSequence(t.xs, t.fs, t.evals, method=t.method if not t.method_inferred or
-                                    t.brackets is None else None, label=t.label)
-            return estimate_order(seq, root=ref, evals_per_step=None)
-        seq = t.order_source
-        if t.n == 0 and t.fs is not None:
-            return estimate_order(seq, root=root, method=t.method, reference="residuals")
-        xs = np.asarray(t.xs)
-        if not np.all(np.isfinite(xs)):
-            keep = int(np.argmax(~np.isfinite(xs)))
-            if keep < 3:
-                notes.append("too few finite iterates for an order of convergence")
-                return None
-            seq = IterationSequence(xs[:keep], None if t.fs is None else t.fs[:keep], None if t.evals is None
-                                    else t.evals[:keep], method=t.method, label=t.label)
-        return estimate_order(seq, root=root, method=t.method)
-    except Exception as exc:  # noqa: BLE001 - the order is evidence, not a requirement
-        notes.append(f"no order of convergence: {type(exc).__name__}: {str(exc)[:160]}")
-        return None
-
-
-def _reference(t: Any, notes: list[str]) -> Any:
-    """A high-precision root for a recording whose function computes in mpmath (else None)."""
-    from ._reference import reference_root
-
-    try:
-        ref = reference_root(t.problem, float(t.xs[t.best_index()]))
-    except Exception:  # noqa: BLE001 - the callable does not compute in mpmath: no reference, no loss
-        return None
-    if ref.confirmed and abs(ref.float_value - float(t.xs[t.best_index()])) <= 1e-6 * max(1.0, abs(ref.float_value)):
-        notes.append(f"high-precision reference root {ref.summary}")
-        return ref
-    return None
-
-
 def diagnose(
     source: Any,
     *,
@@ -293,8 +259,10 @@ def diagnose(
     """
     import numpy as np
 
+    from ._detect_crawl import detect_crawl
     from ._detect_done import detect_converged
     from ._detect_flat import detect_flat
+    from ._detect_order import order_estimate
     from ._detect_path import Context, detect_cycle, detect_divergence, detect_domain_error
     from ._detect_probe import detect_flat_zero, detect_noise, detect_pole, detect_unattainable
     from ._detect_rate import detect_budget, detect_multiple_root, detect_rate_derivative, detect_slow
@@ -307,7 +275,7 @@ def diagnose(
     prober = Prober(t.f, max_probe_evals, enabled=probe)
     ctx = Context(prober, root=root, bracket=None if bracket is None else (float(bracket[0]), float(bracket[1])),
                   notes=notes)
-    ctx.order_fn = lambda: _order_estimate(t, root, probe, notes)
+    ctx.order_fn = lambda: order_estimate(t, root, probe, notes)
     found: list[Finding] = []
 
     def run(detector: Callable[[Any, Any], Finding | None]) -> Finding | None:
@@ -332,9 +300,12 @@ def diagnose(
     broken = escaped is not None or pole is not None or cyc is not None or (failed is not None and not done)
     if not broken:
         run(detect_noise)
+    crawl = run(detect_crawl) if not broken else None
+    ctx.cache["crawl"] = crawl
     if escaped is None:
         flat = run(detect_flat) or run(detect_flat_zero)
-        broken = broken or (flat is not None and flat.tag in ("stationary point", "zero slope", "no sign change"))
+        stops = ("stationary point", "zero slope", "no sign change") + (() if done else ("repeated throws",))
+        broken = broken or (flat is not None and flat.tag in stops)
     if broken:
         notes.append("the order of convergence was not measured: the iterates do not converge to a root")
     else:
@@ -343,9 +314,9 @@ def diagnose(
             run(detect_rate_derivative)
         if not any(x.kind == "noise-floor" for x in found):  # the noise finding already names the attainable tolerance
             run(detect_unattainable)
-        if not any(x.kind in ("multiple-root", "wrong-derivative") for x in found):
+        if crawl is None and not any(x.kind in ("multiple-root", "wrong-derivative") for x in found):
             run(detect_slow)
-        if not any(x.kind == "noise-floor" for x in found):
+        if crawl is None and not any(x.kind == "noise-floor" for x in found):
             run(detect_budget)
     conv = run(detect_converged) if escaped is None and pole is None else None
     if not found:
@@ -353,6 +324,7 @@ def diagnose(
     converged = conv is not None and trace_converged(t)
     verdict = _verdict(found, converged)
     ordered = sorted(found, key=lambda x: (x.kind != verdict, PRECEDENCE.index(x.kind)))
+    expr = getattr(t.problem, "expression", None) if t.problem is not None else None
     return Diagnosis(
         verdict=verdict,
         findings=tuple(ordered),
@@ -365,7 +337,19 @@ def diagnose(
         root=float(t.xs[t.best_index()]) if t.n else None,
         notes=tuple(dict.fromkeys(notes)),
         subject=source,
+        expression=None if expr is None else str(expr.text),
+        params=() if expr is None else _scalar_params(t.problem.params),
     )
+
+
+def _scalar_params(params: Any) -> tuple[tuple[str, float], ...]:
+    out = []
+    for k, v in dict(params or {}).items():
+        try:
+            out.append((str(k), float(v)))
+        except (TypeError, ValueError):  # an array of values (a sweep): no single command line
+            return ()
+    return tuple(out)
 
 
 def _verdict(found: list[Finding], converged: bool) -> str:
@@ -385,7 +369,8 @@ def _unexplained(t: Any) -> Finding:
     return Finding(
         "budget",
         f"The solver stopped ({stop}) without converging, and none of the known patterns (cycle, divergence, "
-        "multiple root, noise, pole, flat spot) shows in its iterates.",
+        "flat-tangent throws, multiple root, noise or rounding floor, pole, flat spot, exponential-like crawl) "
+        "shows in its iterates.",
         (("iterates", t.n, ""), ("stop", stop, "")),
         "Look at the iterates and f near them; try a bracketing method (hybrid) on a bracket from "
         "convdiag.find_brackets.",

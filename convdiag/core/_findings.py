@@ -131,6 +131,28 @@ class Remedy:
             out.append(f"--max-evals {self.max_evals}")
         return " ".join(out)
 
+    def command_line(self, expression: str, params: Mapping[str, float] | None = None) -> str:
+        """The remedy as ``convdiag`` commands on an expression, ready to paste into a shell.
+
+        A remedy that searches its bracket when applied (``near``) becomes two commands: the
+        bracket search, then the run on a bracket it lists.
+        """
+        import shlex
+
+        expr = shlex.quote(expression)
+        opts = "".join(f" --param {k}={float(v)!r}" for k, v in (params or {}).items())
+        run = f"convdiag run {expr}{opts} {self.cli_options()}"
+        if self.bracket is None and self.near is not None and self.method_needs_bracket():
+            return (f"convdiag brackets {expr}{opts} --near {self.near!r}, then {run} --bracket LO HI "
+                    "(a root bracket it lists)")
+        return run
+
+    def method_needs_bracket(self) -> bool:
+        from ._methods import METHODS
+
+        cls = METHODS.get(self.method)
+        return bool(cls is not None and cls.needs_bracket)
+
     def method_object(self) -> Any:
         """The method to run: a name, or an instance carrying the multiplicity."""
         from ._methods import METHODS

@@ -4,7 +4,11 @@ Pure string work (no matplotlib). Registered with core's display hook on
 import, so :class:`~convdiag.core._diagnose.Diagnosis` shows itself in
 terminals and notebooks. The layout: a headline with the verdict, the primary
 finding (what happened, the evidence table, what to change and how to apply
-it), then the other findings more briefly, then the observed order and notes.
+it: ``diagnosis.remedy.solve(f)`` from Python, and for an expression also the
+``convdiag`` command line with the expression's text and parameters; a callable
+exists only in the Python session), then the other findings more briefly, then
+the observed order and notes. Numbers show 7 significant digits, more (up to 17)
+when the numbers of one evidence row would otherwise look equal.
 """
 
 from __future__ import annotations
@@ -40,7 +44,7 @@ _WORDS = {
 }
 
 
-def _value(v: Any) -> str:
+def _value(v: Any, digits: int = 7) -> str:
     if isinstance(v, str):
         return v
     if isinstance(v, bool):
@@ -48,16 +52,29 @@ def _value(v: Any) -> str:
     if isinstance(v, int):
         return str(v)
     if isinstance(v, (tuple, list)):
-        return ", ".join(_value(u) for u in v)
+        d = _distinct_digits(v)
+        return ", ".join(_value(u, d) for u in v)
     try:
         f = float(v)
     except (TypeError, ValueError, OverflowError):
         return str(v)
-    return fmt(f, 7)
+    return fmt(f, digits)
+
+
+def _distinct_digits(values: Any) -> int:
+    """Significant digits (7 to 17) that show numbers of one evidence row apart when they differ."""
+    nums: set[float] = set()
+    for u in values:
+        if isinstance(u, (int, float)) and not isinstance(u, bool):
+            nums.add(float(u))
+    for digits in range(7, 17):
+        if len({fmt(u, digits) for u in nums}) == len(nums):
+            return digits
+    return 17
 
 
 def evidence_rows(finding: Finding) -> list[list[str]]:
-    """The evidence of a finding as table rows (label, value, note)."""
+    """The evidence of a finding as table rows (label, value, note); the numbers of a row that differ show apart."""
     return [[label, _value(value), note] for label, value, note in finding.evidence]
 
 
@@ -76,11 +93,14 @@ def _source(d: Diagnosis) -> str:
     return f"Diagnosis of {d.label} ({', '.join(parts)})"
 
 
-def _apply(f: Finding) -> str:
+def _apply(d: Diagnosis, f: Finding) -> str:
+    """How to apply the remedy: from Python always; as a command line when f is an expression."""
     r = f.remedy
     if r is None:
         return ""
-    return f"diagnosis.remedy.solve(f)  ·  convdiag run EXPR {r.cli_options()}"
+    if d.expression is None:  # a callable: it exists only in the Python session
+        return "diagnosis.remedy.solve(f)"
+    return f"diagnosis.remedy.solve(f)  ·  {r.command_line(d.expression, dict(d.params))}"
 
 
 def _order_line(d: Diagnosis) -> str:
@@ -99,7 +119,7 @@ def diagnosis_text(d: Diagnosis) -> str:
     if p.advice:
         out += ["", f"  What to change: {p.advice}"]
     if p.remedy is not None:
-        out.append(f"  Apply it: {_apply(p)}")
+        out.append(f"  Apply it: {_apply(d, p)}")
     others = d.findings[1:]
     if others:
         out += ["", "Also found:"]
@@ -128,7 +148,7 @@ def _colour(verdict: str) -> str:
     return _WARN if verdict in _WARN_KINDS else _BAD
 
 
-def _finding_html(f: Finding, *, primary: bool) -> str:
+def _finding_html(d: Diagnosis, f: Finding, *, primary: bool) -> str:
     esc = html.escape
     tag = f" ({f.tag})" if f.tag else ""
     head = (f'<div style="margin-top:6px;"><b>{esc(f.kind)}{esc(tag)}</b>: {esc(f.summary)}</div>' if not primary
@@ -139,7 +159,7 @@ def _finding_html(f: Finding, *, primary: bool) -> str:
     if f.advice:
         parts.append(f'<div><b>What to change:</b> {esc(f.advice)}</div>')
     if f.remedy is not None and primary:
-        parts.append(f'<div style="color:#555;">Apply it: <code>{esc(_apply(f))}</code></div>')
+        parts.append(f'<div style="color:#555;">Apply it: <code>{esc(_apply(d, f))}</code></div>')
     return "".join(parts)
 
 
@@ -150,11 +170,11 @@ def diagnosis_html(d: Diagnosis) -> str:
         '<div style="font-family:system-ui,sans-serif;font-size:13px;max-width:60em;">',
         f'<div style="color:#555;">{esc(_source(d))}</div>',
         f'<div style="font-weight:600;font-size:14px;color:{_colour(d.verdict)};">{esc(_headline(d))}</div>',
-        _finding_html(d.primary, primary=True),
+        _finding_html(d, d.primary, primary=True),
     ]
     if len(d.findings) > 1:
         parts.append('<div style="margin-top:8px;font-weight:600;">Also found</div>')
-        parts += [_finding_html(f, primary=False) for f in d.findings[1:]]
+        parts += [_finding_html(d, f, primary=False) for f in d.findings[1:]]
     line = _order_line(d)
     if line:
         parts.append(f'<div style="margin-top:6px;">{esc(line)}</div>')

@@ -135,3 +135,30 @@ def test_run_on_the_tan_pole_reports_the_pole_without_a_traceback(capsys):
     d = json.loads(out)
     assert code == 0 and d["verdict"] == "pole" and d["findings"][0]["kind"] == "pole"
     assert "Traceback" not in err
+
+
+def test_the_text_form_gives_the_command_line_that_applies_the_remedy(capsys, tmp_path):
+    # Newton's 2-cycle 0, 1, 0, 1 on x³ − 2x + 2 (REFERENCES §4); its real root is −1.7692923542386314
+    path = tmp_path / "cycle.csv"
+    path.write_text("x\n" + "".join(f"{k % 2}\n" for k in range(12)))
+    code, out, _ = run_cli(capsys, "diagnose", str(path), "--function", "x**3 - 2*x + 2")
+    assert code == 1 and "verdict: cycle" in out and "EXPR" not in out
+    line = next(ln for ln in out.splitlines() if "Apply it:" in ln)
+    command = line.split("·", 1)[1].strip()
+    assert command.startswith("convdiag run 'x**3 - 2*x + 2' --method hybrid --bracket ")
+    import shlex
+
+    code, out, _ = run_cli(capsys, *shlex.split(command)[1:], "--json")
+    assert code == 0 and abs(json.loads(out)["root"] - (-1.7692923542386314)) < 1e-12
+
+
+def test_an_expected_bracket_is_used_by_the_remedy(capsys, tmp_path):
+    # the same 2-cycle; you expect the root in [−2, −1.5] (f(−2) = −2 < 0 < f(−1.5) = 1.625)
+    path = tmp_path / "cycle.csv"
+    path.write_text("x\n" + "".join(f"{k % 2}\n" for k in range(12)))
+    code, out, _ = run_cli(capsys, "diagnose", str(path), "--function", "x**3 - 2*x + 2", "--bracket", "-2", "-1.5",
+                           "--json")
+    assert code == 1 and json.loads(out)["findings"][0]["remedy"]["bracket"] == [-2.0, -1.5]
+    with pytest.raises(SystemExit) as exc:
+        main(["diagnose", str(path), "--bracket", "1", "0"])
+    assert exc.value.code == 2 and "--bracket needs two finite numbers LO < HI" in capsys.readouterr().err

@@ -39,3 +39,15 @@ def test_the_bracket_search_is_shared_between_findings_and_counted():
     again = diagnose(solve("atan(x)", "newton", start=1.5), max_probe_evals=5)
     assert again.remedy.bracket is None and again.remedy.near == 1.5  # no budget: searched when applied
     assert again.remedy.solve("atan(x)").converged
+
+
+def test_an_expected_bracket_with_a_sign_change_is_the_remedy_of_every_finding():
+    # Newton's 2-cycle on x³ − 2x + 2 from 0 (REFERENCES §4): you expect the root in [−2, −1.5] (f(−2) = −2,
+    # f(−1.5) = 1.625): the remedy uses that bracket instead of searching near the start
+    d = diagnose(solve("x**3 - 2*x + 2", "newton", start=0.0, max_evals=20), bracket=(-2.0, -1.5))
+    assert d.verdict == "cycle" and d.remedy.bracket == (-2.0, -1.5)
+    cured = d.remedy.solve("x**3 - 2*x + 2")
+    assert cured.converged and abs(cured.root - (-1.7692923542386314)) < 1e-12
+    # without probes the bracket cannot be checked, and is still what you asked for
+    assert diagnose(solve("x**3 - 2*x + 2", "newton", start=0.0, max_evals=20), bracket=(-2.0, -1.5),
+                    probe=False).remedy.bracket == (-2.0, -1.5)

@@ -6,6 +6,7 @@ Newton's first step from 1.5 on sin x has length tan 1.5 and slope cos 1.5; x² 
 
 import math
 
+import numpy as np
 import pytest
 
 from convdiag import solve
@@ -34,3 +35,66 @@ def test_a_function_without_a_real_root_is_flat_with_no_sign_change(method):
     assert d.primary.value("sign of f") == "+" and d.primary.value("smallest |f|") >= 1.0
     assert d.primary.value("bracket search") == "no sign change" and d.remedy is None
     assert "no real root" in d.primary.summary
+
+
+KEPLER = "x - ecc*sin(x) - M"
+
+
+def kepler_root(m, ecc):
+    """E with E − e·sin E = M: scipy's brentq on [M, M + e], which holds the root (f(M) = −e·sin M < 0,
+    f(M + e) = e·(1 − sin(M + e)) ≥ 0)."""
+    from scipy.optimize import brentq
+
+    return brentq(lambda e_: e_ - ecc * math.sin(e_) - m, m, m + ecc, xtol=1e-15)
+
+
+@pytest.mark.parametrize("form", ["expression", "callable"])
+def test_newton_on_kepler_at_high_eccentricity_is_thrown_about_by_flat_tangents(form):
+    # e = 0.99, M = 0.14 from E0 = M: f'(E) = 1 − e·cos E is 0.0197 at E0, and again and again the tangent throws
+    # the iterate far away (|E| reaches ~8e5) until the budget runs out.
+    from convdiag.demos import kepler_prime, kepler_residual
+
+    orbit = {"M": 0.14, "ecc": 0.99}
+    calls = []
+
+    def f(e_, M, ecc):
+        calls.append(e_)
+        return kepler_residual(e_, M, ecc)
+
+    if form == "expression":
+        run = solve(KEPLER, "newton", start=0.14, params=orbit)
+        problem = KEPLER
+    else:
+        run = solve(f, "newton", start=0.14, fprime=kepler_prime, params=orbit)
+        problem = f
+    assert run.stop_reason == "max-evals" and max(abs(run.iterates)) > 1e5
+    before = len(calls)
+    d = diagnose(run)
+    assert d.verdict == "flat" and d.primary.tag == "repeated throws", (d, d.kinds)
+    assert d.primary.value("throws") >= 3
+    x_flat, slope = d.primary.value("flattest throw")
+    assert slope == pytest.approx(1 - 0.99 * math.cos(x_flat), rel=1e-6)  # the slope Newton used is f'(x)
+    assert not any("noise" in n for n in d.notes) and "noise-floor" not in d.kinds  # nothing stalled: no noise probe
+    assert "unattainable-tolerance" not in d.kinds
+    # every probe is near the start and the root, or within 1e-3 (relative) of an iterate (the derivative check);
+    # none is spaced like the wandering iterates (a noise sample 1e4 apart reads sin E as noise)
+    # (the bracket search tries arrays first, the derivative check a complex step)
+    probes = [float(p) for p in calls[before:] if np.ndim(p) == 0 and not np.iscomplexobj(p)]
+    near = [min(abs(p - x) for x in run.iterates) <= 1e-3 * max(1.0, abs(p)) or abs(p) <= 10 for p in probes]
+    assert all(near) and (form == "expression" or probes)
+    root = kepler_root(0.14, 0.99)
+    lo, hi = d.remedy.bracket
+    assert 0.14 <= lo <= root <= hi <= 0.14 + 0.99
+    cured = d.remedy.solve(problem, params=orbit)
+    assert cured.converged and abs(cured.root - root) < 1e-14
+
+
+def test_a_run_that_recovers_from_repeated_throws_is_converged_and_says_why_it_took_long():
+    # e = 0.99, M = 0.08 from E0 = M: thrown about for ~35 steps, then quadratic to the root
+    from convdiag.demos import kepler_prime, kepler_residual
+
+    run = solve(kepler_residual, "newton", start=0.08, fprime=kepler_prime, params={"M": 0.08, "ecc": 0.99})
+    assert run.converged and abs(run.root - kepler_root(0.08, 0.99)) < 1e-14
+    d = diagnose(run)
+    assert d.verdict == "converged" and d.kinds == ("converged", "flat")
+    assert d.finding("flat").tag == "repeated throws" and "before they closed in" in d.finding("flat").summary

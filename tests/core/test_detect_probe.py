@@ -99,3 +99,63 @@ def test_a_high_precision_run_is_judged_by_its_own_spacing():
     d = diagnose(solve("x**2 - 2", "newton", start=1.0, digits=50, xtol=1e-60, rtol=0.0))
     u_ = d.finding("unattainable-tolerance")
     assert u_ is not None and u_.value("gap between doubles at x") == pytest.approx(SQRT2 * 1e-50, rel=1e-6)
+
+
+def kepler_root(m, ecc):
+    """Kepler's E − e·sin E = M (REFERENCES §5) by scipy's brentq to its tightest tolerance."""
+    from scipy.optimize import brentq
+
+    from convdiag.demos import kepler_residual
+
+    return brentq(kepler_residual, 0.0, math.pi, args=(m, ecc), xtol=1e-300, rtol=8.9e-16)
+
+
+@pytest.mark.parametrize("m, ecc, form", [(0.015, 0.9, "callable"), (0.006, 0.99, "expression")])
+def test_a_cycle_at_the_rounding_level_is_an_unattainable_tolerance_with_the_attainable_value(m, ecc, form):
+    # Newton on Kepler's equation from E0 = π with the default rtol = 4·eps: near the root the terms E, e·sin E
+    # (about 0.1-0.3) cancel, so f carries rounding of about eps·|E| while |x·f'| is far smaller; the iterates end
+    # in a cycle a few ulps wide that never meets the step tolerance.
+    from convdiag.demos import kepler_prime, kepler_residual
+
+    params = {"M": m, "ecc": ecc}
+    kw = {"fprime": kepler_prime} if form == "callable" else {}
+    f = kepler_residual if form == "callable" else "x - ecc*sin(x) - M"
+    run = solve(f, "newton", start=math.pi, params=params, **kw)
+    root = kepler_root(m, ecc)
+    tail = run.iterates[-8:]
+    assert run.stop_reason == "max-evals" and max(abs(tail - root)) < 1e-14  # stuck at the root, not converging
+    d = diagnose(run)
+    u_ = d.primary
+    assert d.verdict == "unattainable-tolerance", (d, d.kinds)
+    asked = u_.value("requested xtol + rtol·|x|")
+    assert asked == pytest.approx(4 * 2.220446049250313e-16 * abs(run.iterates[-1]), rel=1e-12)
+    attain = u_.value("attainable accuracy in x")
+    assert attain > asked and attain >= max(abs(tail - root)) / 4  # the cycle stays within a few times of it
+    cured = u_.remedy.solve(f, params=params, **kw)
+    assert cured.converged and abs(cured.root - root) <= 2 * attain
+
+
+def test_the_rounding_of_terms_that_cancel_is_seen_in_an_expression():
+    # at the root of E − 0.99·sin E − 0.005 (E ≈ 0.248) the terms are about 0.25 each while |f| ≈ 0 and
+    # |E·f'| ≈ 0.01: the sum's rounding bound eps·Σ|t_i| (Higham 2002 §4.2, from memory) is about 1.1e-16
+    from convdiag.core._detect_noise import rounding_level
+    from convdiag.core._detect_path import Context
+    from convdiag.core._detect_trace import Prober, build_trace
+
+    run = solve("x - ecc*sin(x) - M", "newton", start=math.pi, params={"M": 0.005, "ecc": 0.99})
+    t = build_trace(run)
+    x = float(run.root)
+    terms = x + 0.99 * math.sin(x) + 0.005
+    level, base, how, _ = rounding_level(t, Context(Prober(t.f, 60)), x)
+    assert base >= 2.220446049250313e-16 * terms * 0.999 and "terms" in how
+    assert level >= base > 10 * 2.220446049250313e-16 * abs(x * (1 - 0.99 * math.cos(x)))
+
+
+def test_kepler_from_pi_at_m_0005_is_never_left_as_a_bare_budget_stop():
+    # the notebook's setting (e = 0.99, M = 0.005, default rtol): it converges here or stalls at the rounding floor
+    from convdiag.demos import kepler_prime, kepler_residual
+
+    run = solve(kepler_residual, "newton", start=math.pi, fprime=kepler_prime, params={"M": 0.005, "ecc": 0.99})
+    d = diagnose(run)
+    assert d.verdict == ("converged" if run.converged else "unattainable-tolerance"), (run, d)
+    assert abs(run.root - kepler_root(0.005, 0.99)) < 1e-14

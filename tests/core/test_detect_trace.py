@@ -149,3 +149,23 @@ def test_a_recorded_domain_failure_is_located():
     assert d.primary.value("first failure at x") == pytest.approx(3 - 3 * math.log(3))
     lo, hi = d.primary.value("domain edge")
     assert hi < 0 <= lo
+
+
+def test_the_diagnosis_probes_a_recording_with_the_args_the_solver_passed():
+    # scipy's newton(f, x0, args=(a,)) calls f(x, a); the diagnosis must call it the same way. The cubic
+    # x³ − a·x + 2 with a = 2 is Newton's 2-cycle from 0 (REFERENCES §4); its real root is −1.7692923542386314.
+    def f(x, a):  # no default for a: probing without the solver's args would fail at every point
+        return x**3 - a * x + 2
+
+    def fprime(x, a):
+        return 3 * x * x - a
+
+    rf = record(f, fprime=fprime)
+    quietly(so.newton, rf, 0.0, fprime=rf.fprime, args=(2.0,), maxiter=10)
+    assert rf.call_args == (2.0,)
+    d = diagnose(rf)
+    assert d.verdict == "cycle" and d.probes > 0
+    lo, hi = d.remedy.bracket  # found by probing f(x, 2.0) near the start
+    assert lo <= -1.7692923542386314 <= hi
+    assert not any("could not finish" in n for n in d.notes)
+

@@ -1,0 +1,225 @@
+"""The floor of f near a stalled iteration: computational noise, and the rounding level of f.
+
+Every evaluation goes through the diagnosis's :class:`~convdiag.core._detect_trace.Prober`
+(counted, budgeted). Rules and thresholds (basis in brackets):
+
+when f is sampled
+    Only when the iterates have stalled (``_detect_stop.stalled_tail``: the last iterates
+    within 1e-2 of the distance travelled and of max(1, |x|)). Iterates still thrown about
+    (a wandering Newton run on Kepler's equation reaches |E| ~ 1e5) say nothing about a floor,
+    and a sample spaced like them reads f's own variation (sin E sampled 1e4 apart) as noise.
+noise-floor
+    Moré and Wild's estimate is taken at the best iterate with the default spacing, and with
+    spacing h2 = (spread of the stalled iterates)/8 [the noise module's advice for piecewise
+    smooth noise] when the sample's width 8·h2 is at most a tenth of the length |f'/f''| over
+    which the slope of f changes (f' and f'' from the first and second differences across the
+    default sample): wider, f's own curvature dominates the differences [common practice, no
+    source]. Noise is found when a status is "ok" (above 100 × rounding) and the stalled |f|
+    is within 100 × that level. Attainable accuracy in x: level/|f'| (Wilkinson's condition
+    number of a simple root, from memory), f' from a central difference over
+    max(16 × spread, 1e-4·max(1, |x|)).
+rounding level of f (:func:`rounding_level`)
+    The largest of (i) Moré and Wild's level at the best iterate (the noise module's estimate
+    eps·max(|f|, |x·f'|) when no level is found); (ii) when f is an expression that is a sum
+    of terms t_i at its top level: eps·Σ|t_i(x)|, the first-order bound on the rounding of a
+    sum (Higham, *Accuracy and Stability of Numerical Algorithms*, 2nd ed. 2002, §4.2, from
+    memory) — it sees rounding in terms that cancel, which (i)'s fallback misses (Kepler's
+    E − e·sin E − M near E = 0.25: terms of 0.25, |x·f'| only 0.01); (iii) when the iterates
+    stalled with f taking both signs over the stalled ones, within 100 × the larger of (i) and
+    (ii): the median |f| there. The iterates straddle the root, so the smooth part of f is no
+    larger there than what rounding adds, and the run's own steps are |f|/|f'| with this |f|.
+    Such a run also cannot take steps smaller than the smallest one it keeps taking there
+    (|f|/|f'| of a rounding-sized f, rounded to a double): that step is reported with the level.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+import numpy as np
+
+from ._detect_advice import _remedy_same
+from ._detect_path import Context, g
+from ._detect_stop import stalled_tail
+from ._detect_trace import EPS, Trace, trace_converged
+from ._findings import Evidence, Finding
+
+__all__ = ["detect_noise", "noise_explains", "rounding_level"]
+
+NOISE_NEAR = 100.0
+#: the second sample's width 8·h2 must stay within this fraction of |f'/f''| (module docstring)
+CURVATURE_SHARE = 0.1
+
+
+def _length_scale(est: Any) -> float:
+    """|f'/f''| from the first and second differences across a sample (inf when f'' looks 0)."""
+    pts = [(x, v) for x, v in est.samples if math.isfinite(x) and math.isfinite(v)] if est is not None else []
+    if len(pts) < 3:
+        return 0.0
+    (xa, fa), (_, fm), (xb, fb) = pts[0], pts[len(pts) // 2], pts[-1]
+    w = (xb - xa) / 2
+    if not w > 0:
+        return 0.0
+    d1 = (fb - fa) / (2 * w)
+    d2 = (fb - 2 * fm + fa) / (w * w)
+    if d2 == 0:
+        return math.inf
+    return float(abs(d1) / abs(d2))
+
+
+def _noise(t: Trace, ctx: Context, x: float, spread: float) -> Any:
+    """Moré–Wild at x: the default spacing, then spread/8 when the curvature allows (module docstring)."""
+    from ._noise import estimate_noise
+
+    if "noise" in ctx.cache:
+        return ctx.cache["noise"]
+    pr = ctx.prober
+    found: list[Any] = []
+    for h in [None] + ([spread / 8] if spread > 0 else []):
+        room = pr.remaining - 2  # keep two evaluations for the slope that turns noise into an accuracy in x
+        if room < 9:
+            break
+        if h is not None:
+            scale = _length_scale(found[0]) if found else 0.0
+            if not 8 * h <= CURVATURE_SHARE * scale:
+                ctx.notes.append(f"f was not sampled at spacing {h:.2g} (the spread of the stalled iterates / 8): "
+                                 f"the slope of f changes over about {scale:.2g}, so its curvature would dominate")
+                break
+        found.append(estimate_noise(None, x, h=h, evaluate=pr, max_attempts=max(1, min(3, room // 9))))
+    ok = [e for e in found if e.status == "ok"]
+    best = max(ok, key=lambda e: e.level) if ok else (next((e for e in found if e.found), None))
+    ctx.cache["noise"] = best
+    return best
+
+
+def _spread(t: Trace) -> float | None:
+    """The spread of the stalled iterates, or None when the iteration has not stalled."""
+    st = stalled_tail(t)
+    return None if st is None else st[1]
+
+
+def noise_explains(t: Trace, ctx: Context) -> bool:
+    """f is noisy (Moré–Wild status "ok") and the later iterates sit at that noise floor.
+
+    Used to keep a "rate" measured on iterates that wander in the noise from being read as a
+    multiple root, a wrong derivative or slow convergence.
+    """
+    if t.f is None or t.fs is None or t.n < 4 or ("noise" not in ctx.cache and ctx.prober.remaining < 11):
+        return False
+    if "noise" not in ctx.cache and _spread(t) is None:
+        return False  # not stalled: no floor to sit at
+    est = _noise(t, ctx, float(t.xs[t.best_index()]), _spread(t) or 0.0)
+    if est is None or est.status != "ok":
+        return False
+    late = np.abs(t.fs[t.n // 2:])
+    late = late[np.isfinite(late)]
+    if len(late) and float(np.median(late)) <= NOISE_NEAR * est.level:
+        ctx.notes.append(f"the later iterates sit at the noise floor of f (level {est.level:.2g}): a rate measured "
+                         "there describes the noise, not the convergence")
+        return True
+    return False
+
+
+def detect_noise(t: Trace, ctx: Context) -> Finding | None:
+    pr = ctx.prober
+    if t.f is None or t.n < 4 or trace_converged(t) or pr.remaining < 11:
+        return None
+    stall = stalled_tail(t)
+    if stall is None:
+        return None
+    k0, spread, _ = stall
+    k = t.best_index()
+    x = float(t.xs[k])
+    tail = t.xs[k0:]
+    est = _noise(t, ctx, x, spread)
+    if est is None or est.status != "ok":
+        return None
+    ftail = np.abs(t.fs[k0:]) if t.fs is not None else np.zeros(0)
+    fmed = float(np.median(ftail)) if len(ftail) else math.nan
+    if not fmed <= NOISE_NEAR * est.level:
+        ctx.notes.append(f"f carries noise of about {est.level:.2g}, but the stalled |f| ({fmed:.2g}) is far above it")
+        return None
+    D = max(16 * spread, 1e-4 * max(1.0, abs(x)))
+    try:
+        slope = (pr(x + D) - pr(x - D)) / (2 * D)
+    except Exception:  # noqa: BLE001 - budget
+        slope = math.nan
+    from ._noise import attainable_accuracy
+
+    acc = attainable_accuracy(est.level, slope) if math.isfinite(slope) else math.nan
+    ctx.cache["attainable"] = acc
+    xtol = 3 * acc if math.isfinite(acc) else None
+    remedy = _remedy_same(t, xtol=xtol, ftol=3 * est.level,
+                          note="tolerances the noise allows: 3 × the attainable accuracy in x, 3 × the noise in f")
+    ev: list[Evidence] = [
+        ("noise level in f", est.level, f"Moré–Wild estimate (standard deviation) at x = {g(x, 10)}"),
+        ("times rounding", est.above_rounding, f"rounding level {est.rounding:.2g}"),
+        ("sample spacing", est.h, f"{est.evaluations} evaluations, difference order {est.order}"),
+        ("slope f'", slope, f"central difference over ±{D:.2g}"),
+        ("attainable accuracy in x", acc, "noise/|f'|: no method resolves the root better"),
+        ("stalled iterates", (float(np.min(tail)), float(np.max(tail))),
+         f"smallest and largest of the last {len(tail)} iterates"),
+        ("spread of the stalled iterates", spread, "largest − smallest"),
+        ("median |f| there", fmed, "the residual the noise allows"),
+    ]
+    return Finding(
+        "noise-floor",
+        f"f carries computational noise of about {est.level:.2g} ({est.above_rounding:.3g} times rounding), so the "
+        f"iterates can only wander within about {g(acc, 3)} of the root; they stalled there.",
+        tuple(ev),
+        f"Ask for no more than the noise allows: xtol ≥ {g(3 * acc, 3)} or ftol ≥ {g(3 * est.level, 3)}; or make f "
+        "less noisy (tighten the tolerance of the inner solver, quadrature or series inside it). Remedy: "
+        + remedy.describe() + ".",
+        remedy, tuple(range(k0, t.n)), tag=f"level {est.level:.2g}")
+
+
+def _terms_rounding(t: Trace, x: float) -> float:
+    """eps·Σ|t_i(x)| over the top-level terms of an expression f (NaN when f is not such a sum)."""
+    problem = t.problem
+    expr = getattr(problem, "expression", None)
+    if expr is None or not getattr(expr.sympy, "is_Add", False):
+        return math.nan
+    from ._expr import Expression, sympy_to_text
+
+    total = 0.0
+    try:
+        for term in expr.sympy.args:
+            part = Expression(sympy_to_text(term), expr.variable, expr.params, term)
+            total += abs(complex(part.numeric(problem.params)(x)).real)
+    except Exception:  # noqa: BLE001 - a term sympy cannot print or evaluate: no estimate from the terms
+        return math.nan
+    return EPS * total if math.isfinite(total) else math.nan
+
+
+def rounding_level(t: Trace, ctx: Context, x: float) -> tuple[float, float, str, float]:
+    """(level ε_f, the floor without the stalled residuals, how, smallest stalled step) near x (module docstring).
+
+    The smallest stalled step is NaN unless the stalled iterates straddle the root at the rounding floor.
+    """
+    est = _noise(t, ctx, x, 0.0)
+    base = math.nan
+    how = ""
+    if est is not None:
+        base = est.level if est.found else est.rounding
+        how = "Moré–Wild estimate at the best iterate" if est.found else "eps·max(|f|, |x·f'|) at the best iterate"
+    terms = _terms_rounding(t, x)
+    if math.isfinite(terms) and not terms <= base:
+        base, how = terms, "eps × the sum of |terms| of f at the best iterate (rounding in terms that cancel)"
+    if not math.isfinite(base):
+        return math.nan, math.nan, "", math.nan
+    level, step = base, math.nan
+    stall = stalled_tail(t)
+    if stall is not None and t.fs is not None and t.fs_signed:
+        fs = t.fs[stall[0]:]
+        ok = np.isfinite(fs)
+        if np.any(fs[ok] > 0) and np.any(fs[ok] < 0):
+            med = float(np.median(np.abs(fs[ok])))
+            if med <= NOISE_NEAR * base:
+                moves = np.abs(np.diff(t.xs[stall[0]:]))
+                moves = moves[moves > 0]
+                step = float(np.min(moves)) if len(moves) else math.nan
+                if med > base:
+                    level, how = med, (f"median |f| over the last {len(fs)} iterates, which straddle the root (f "
+                                       f"takes both signs); the estimate at the point itself is {base:.2g}")
+    return level, base, how, step
