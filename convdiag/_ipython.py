@@ -104,6 +104,9 @@ def resolve_function(text: str, namespace: dict[str, Any]) -> Any:
     text = text.strip()
     if _NAME.match(text):
         head, *rest = text.split(".")
+        if any(part.startswith("__") for part in rest):  # x.__class__.__mro__...: no way into Python's insides
+            raise MagicError(f"{text!r}: attributes with double underscores are not followed. Name your function "
+                             "directly, or give expression text.")
         if head in namespace:
             obj = namespace[head]
             for part in rest:

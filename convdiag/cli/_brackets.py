@@ -13,7 +13,7 @@ def _cmd_brackets(args: argparse.Namespace) -> int:
     from ..core._brackets import find_brackets
 
     f = load_file_function(args.file) if args.file else function_arg(args.expr)
-    fprime = function_arg(args.fprime) if args.fprime else None
+    fprime = function_arg(args.fprime, allow_file=bool(args.file)) if args.fprime else None
     search = find_brackets(
         f,
         domain=args.domain,
@@ -51,14 +51,15 @@ def register(sub: Any) -> None:
             "method and IQI. Exit status 0 when a root bracket was found, 1 when none, 2 for bad input."
         ),
     )
-    b.add_argument("expr", nargs="?", metavar="EXPR", help="expression in x (or PATH.py:FUNCTION)")
+    b.add_argument("expr", nargs="?", metavar="EXPR", help="expression in x (read safely, never run)")
     b.add_argument("--file", metavar="PATH.py:FUNCTION", help="your own function, f(x) or f(x, **params)")
     where = b.add_mutually_exclusive_group(required=True)
     where.add_argument("--domain", type=float, nargs=2, metavar=("A", "B"), help="search the interval [A, B]")
     where.add_argument("--near", type=float, metavar="X", help="search outward from the guess X")
     b.add_argument("--max-evals", type=int, default=1000, metavar="N", help="evaluation budget (default 1000)")
     b.add_argument("--samples", type=int, default=201, metavar="N", help="first grid over --domain (default 201)")
-    b.add_argument("--fprime", metavar="EXPR", help="derivative, to check Newton starts: expression or PATH.py:FUNCTION")
+    b.add_argument("--fprime", metavar="EXPR",
+                   help="derivative, to check Newton starts: an expression (or PATH.py:FUNCTION with --file)")
     b.add_argument("--param", action="append", metavar="NAME=VALUE", help="model parameter (repeatable)")
     b.add_argument("--json", action="store_true", help="print one JSON object")
     b.set_defaults(func=_cmd_brackets, check=_check_brackets)

@@ -36,11 +36,22 @@ def load_file_function(spec: str) -> Callable[..., Any]:
     return fn  # type: ignore[no-any-return]
 
 
-def function_arg(text: str) -> Any:
-    """EXPR text, or PATH.py:FUNCTION."""
+def function_arg(text: str, *, allow_file: bool = False) -> Any:
+    """EXPR text, handed to the safe expression parser: text never imports a file or runs code.
+
+    Text shaped like ``PATH.py:FUNCTION`` is refused with a pointer to ``--file``, the option that opts in to
+    importing the user's own Python file (text may come from a shared file; it must never run code). With
+    ``allow_file`` (the command was given ``--file``), a derivative may name a function in a file too.
+    """
     head, sep, _ = text.rpartition(":")
     if sep and head.endswith(".py"):
-        return load_file_function(text)
+        if allow_file:
+            return load_file_function(text)
+        raise InputFileError(
+            f"{text!r} looks like PATH.py:FUNCTION, but expression text is never imported or run. Pass your own "
+            f"function with --file {text} (then --fprime may name a function in a file too); otherwise give "
+            "expressions such as '3*x**2 - 2'."
+        )
     return text
 
 

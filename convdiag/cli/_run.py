@@ -15,7 +15,7 @@ def _cmd_run(args: argparse.Namespace) -> int:
     from ..core import solve
 
     f = load_file_function(args.file) if args.file else function_arg(args.expr)
-    fprime = function_arg(args.fprime) if args.fprime else None
+    fprime = function_arg(args.fprime, allow_file=bool(args.file)) if args.fprime else None
     start: Any = None
     if args.start:
         start = args.start if len(args.start) > 1 else args.start[0]
@@ -116,12 +116,13 @@ def register(sub: Any) -> None:
         help="run one method on an expression or your function and print every iterate",
         description="Run one method and print every iterate. EXPR is math text in x, e.g. 'x**3 - 2*x + 2'.",
     )
-    r.add_argument("expr", nargs="?", metavar="EXPR", help="expression in x (or PATH.py:FUNCTION)")
+    r.add_argument("expr", nargs="?", metavar="EXPR", help="expression in x (read safely, never run)")
     r.add_argument("--file", metavar="PATH.py:FUNCTION", help="your own function, f(x) or f(x, **params)")
     r.add_argument("--method", "-m", default="newton", choices=sorted(METHODS), help="method (default newton)")
     r.add_argument("--start", type=float, action="append", metavar="X", help="starting point (repeat for more)")
     r.add_argument("--bracket", type=float, nargs=2, metavar=("A", "B"), help="bracket with a sign change")
-    r.add_argument("--fprime", metavar="EXPR", help="derivative: expression or PATH.py:FUNCTION")
+    r.add_argument("--fprime", metavar="EXPR",
+                   help="derivative: an expression in x (or PATH.py:FUNCTION together with --file)")
     r.add_argument("--param", action="append", metavar="NAME=VALUE", help="model parameter (repeatable)")
     r.add_argument("--tol", type=float, metavar="T", help="absolute tolerance on the step or bracket width")
     r.add_argument("--max-evals", type=int, default=100, metavar="N", help="evaluation budget (default 100)")

@@ -46,7 +46,10 @@ def _number(v: Any, name: str, owner: str, *, allow_complex: bool = False) -> An
         ok = True
     if not ok:
         raise ParameterError.expected(name, owner, "a finite number", v)
-    z = complex(v)
+    try:
+        z = complex(v)
+    except (OverflowError, TypeError, ValueError):  # an int beyond the float range, an mpmath oddity
+        raise ParameterError.expected(name, owner, "a finite number", v) from None
     if not (math.isfinite(z.real) and math.isfinite(z.imag)):
         raise ParameterError.expected(name, owner, "a finite number", v)
     return v
@@ -61,9 +64,9 @@ def _validate_settings(
     if not isinstance(max_evals, numbers.Integral) or isinstance(max_evals, bool) or max_evals < 1:
         raise ParameterError.expected("max_evals", owner, "an int >= 1", max_evals)
     if max_time is not None and (
-        not isinstance(max_time, numbers.Real) or isinstance(max_time, bool) or not max_time > 0
-    ):
-        raise ParameterError.expected("max_time", owner, "a float > 0 or None", max_time)
+        not isinstance(max_time, numbers.Real) or isinstance(max_time, bool) or not 0 < max_time < math.inf
+    ):  # an infinite budget is None: the settings stay JSON-ready
+        raise ParameterError.expected("max_time", owner, "a finite float > 0 or None", max_time)
     if max_steps is not None and (
         not isinstance(max_steps, numbers.Integral) or isinstance(max_steps, bool) or max_steps < 1
     ):

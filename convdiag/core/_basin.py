@@ -189,7 +189,10 @@ def _grid(interval: Any, rectangle: Any, shape: Any, starts: Any) -> tuple[Arr, 
         raise ParameterError.expected("rectangle", owner, "((re_lo, re_hi), (im_lo, im_hi))", rectangle) from None
     r0, r1 = _pair((r0, r1), "rectangle", owner)
     i0, i1 = _pair((i0, i1), "rectangle", owner)
-    ny, nx = (401, 401) if shape is None else shape
+    try:
+        ny, nx = (401, 401) if shape is None else shape
+    except (TypeError, ValueError):  # an int, or not two numbers
+        raise ParameterError.expected("shape", owner, "(rows, columns), each an int >= 2", shape) from None
     if not all(isinstance(k, numbers.Integral) and int(k) >= 2 for k in (ny, nx)):
         raise ParameterError.expected("shape", owner, "(rows, columns), each an int >= 2", shape)
     grid = np.empty((int(ny), int(nx)), np.complex128)

@@ -26,16 +26,23 @@ class Sampler:
     """Evaluates f for a search: counts every point, records every call, stops at the budget.
 
     Calling it evaluates one point and returns a float: NaN where f raised or
-    returned something that is not a real number, ±inf kept. The budget
-    raises ``Halt("max-evals")``. :meth:`many` evaluates an array in one call
-    when f accepts arrays (checked once on two points), else point by point.
+    returned something that is not a real number, ±inf kept. The budgets
+    raise ``Halt("max-evals")`` and ``Halt("max-time")`` (checked before each
+    call). A KeyboardInterrupt inside f is recorded and turned into
+    ``Halt("interrupted")``; from then on every evaluation is refused the same
+    way, so the search wraps up with what it found. :meth:`many` evaluates an
+    array in one call when f accepts arrays (checked once on two points), else
+    point by point.
     """
 
-    def __init__(self, problem: Problem, max_evals: int) -> None:
+    def __init__(self, problem: Problem, max_evals: int, max_time: float | None = None) -> None:
         self.f = problem.f
         self.fprime = problem.fprime
         self.derivative_source = problem.derivative_source if problem.fprime is not None else ""
         self.max_evals = max_evals
+        self.max_time = max_time
+        self.timed_out = False
+        self.interrupted = False
         self.vector: bool | None = True if problem.is_expression else None
         self.rows: list[tuple[int, Any, Any, float, float]] = []
         self.t0 = perf_counter()
@@ -49,9 +56,14 @@ class Sampler:
         return max(0, self.max_evals - self.count)
 
     def _budget(self, n: int = 1) -> None:
+        if self.interrupted:
+            raise Halt("interrupted", "The search was interrupted (KeyboardInterrupt).")
         if self.count + n > self.max_evals:
             self.exhausted = True
             raise Halt("max-evals", f"The evaluation budget of {self.max_evals} ran out.")
+        if self.max_time is not None and perf_counter() - self.t0 > self.max_time:
+            self.exhausted = self.timed_out = True
+            raise Halt("max-time", f"The time budget of {self.max_time:g} s ran out.")
 
     def _call(self, fn: Callable[[Any], Any], x: Any, kind: int) -> Any:
         t = perf_counter()
@@ -61,7 +73,11 @@ class Sampler:
             self.rows.append((kind, x, _Raised(exc), t, perf_counter()))
             self.last_problem = f"raised {type(exc).__name__}: {exc}"
             return _Raised(exc)
-        except BaseException as exc:  # KeyboardInterrupt: record it, then let it through
+        except KeyboardInterrupt as exc:  # recorded; the search wraps up with what it found
+            self.rows.append((kind, x, _Raised(exc), t, perf_counter()))
+            self.interrupted = True
+            raise Halt("interrupted", "The search was interrupted (KeyboardInterrupt).") from None
+        except BaseException as exc:  # SystemExit and the like: record it, then let it through
             self.rows.append((kind, x, _Raised(exc), t, perf_counter()))
             raise
         self.rows.append((kind, x, y, t, perf_counter()))

@@ -73,13 +73,22 @@ class Work:
 
     def _seen(self, xs: Sequence[float], vals: Sequence[float]) -> None:
         self.values.extend(abs(v) for v in vals if math.isfinite(v) and v != 0)
-        self.scale = float(np.median(self.values)) if self.values else math.nan
+        with np.errstate(over="ignore"):
+            self.scale = float(np.median(self.values)) if self.values else math.nan
+        if math.isinf(self.scale):  # the two middle values near the float limit: their mean overflowed
+            self.scale = float(np.quantile(self.values, 0.5, method="lower"))
         self.span = (min(self.span[0], *xs), max(self.span[1], *xs))
 
     # -- one feature each ------------------------------------------------------------
     def run_pending(self) -> None:
         while self.pending:
-            self.sign_change(*self.pending.pop(0))
+            item, found = self.pending.pop(0), len(self.found)
+            try:
+                self.sign_change(*item)
+            except BaseException:  # a budget or an interrupt before it was judged: listed as unclassified
+                if len(self.found) == found:
+                    self.pending.insert(0, item)
+                raise
 
     def sign_change(self, a: float, fa: float, b: float, fb: float, after: int) -> None:
         before = self.s.count
@@ -188,7 +197,8 @@ class Work:
 
     # -- the two searches ----------------------------------------------------------------
     def scan_domain(self, lo: float, hi: float, n: int) -> None:
-        xs = np.linspace(lo, hi, n).tolist()
+        with np.errstate(over="ignore"):  # a width near the float limit overflows inside, harmlessly
+            xs = np.linspace(lo, hi, n).tolist()
         vs = self.s.many(xs).tolist()
         after = self.s.count
         self._seen(xs, vs)

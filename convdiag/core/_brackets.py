@@ -129,8 +129,9 @@ class BracketSearch(Showable):
     notes : what else to know (budget ran out, near-misses, how f was evaluated).
     max_evals : the budget.
     scale : the typical size of |f| (median over the samples) used by the touch rule.
-    budget_exhausted : the search stopped because the budget ran out.
+    budget_exhausted : the search stopped because a budget (evaluations or time) ran out.
     vectorised : f was evaluated on arrays.
+    interrupted : a KeyboardInterrupt stopped the search; the candidates are what was found by then.
     """
 
     problem: str
@@ -144,6 +145,7 @@ class BracketSearch(Showable):
     scale: float
     budget_exhausted: bool
     vectorised: bool
+    interrupted: bool = False
 
     @property
     def roots(self) -> tuple[Candidate, ...]:
@@ -163,6 +165,7 @@ class BracketSearch(Showable):
             "budget_exhausted": self.budget_exhausted,
             "scale": _num(self.scale),
             "vectorised": self.vectorised,
+            "interrupted": self.interrupted,
             "notes": list(self.notes),
             "brackets": [c.to_dict() for c in self.candidates],
         }
@@ -195,6 +198,7 @@ def find_brackets(
     step: float | None = None,
     touch_rtol: float = 1e-8,
     edge_tol: float | None = None,
+    max_time: float | None = None,
 ) -> BracketSearch:
     """Find where the roots of f are, tell them from poles, jumps and touches, and recommend starts.
 
@@ -212,6 +216,9 @@ def find_brackets(
     max_evals : int
         Evaluations allowed (every point counts, derivatives too). When it runs
         out, the search returns what it found with a note; it never raises.
+    max_time : float, optional
+        Seconds of wall time allowed (checked before each evaluation); when they run out, the
+        search returns what it found with a note, as for ``max_evals``.
     params : mapping, optional
         Model parameters passed to f.
     fprime : optional
@@ -230,6 +237,8 @@ def find_brackets(
     Returns
     -------
     BracketSearch
+        A KeyboardInterrupt (inside f or not) ends the search early: it returns what it found,
+        with ``interrupted`` set.
 
     Raises
     ------
@@ -265,6 +274,9 @@ def find_brackets(
             raise ParameterError.expected("domain", "find_brackets", "a pair (lo, hi) with lo < hi", domain)
         lo = _check_float(domain[0], "domain", "a pair of finite floats (lo, hi) with lo < hi", lambda v: True)
         hi = _check_float(domain[1], "domain", "a pair of finite floats (lo, hi) with lo < hi", lambda v: v > lo)
+        if not math.isfinite(hi - lo):
+            raise ParameterError.expected("domain", "find_brackets", "a pair (lo, hi) with a finite width hi - lo",
+                                          domain)
         dom = (lo, hi)
         xscale = hi - lo
     else:
@@ -274,10 +286,12 @@ def find_brackets(
         step = _check_float(step, "step", "a finite float > 0", lambda v: v > 0)
     if edge_tol is not None:
         edge_tol = _check_float(edge_tol, "edge_tol", "a finite float > 0", lambda v: v > 0)
+    if max_time is not None:
+        max_time = _check_float(max_time, "max_time", "a finite float > 0 or None", lambda v: v > 0)
     from ._bracket_search import Work  # it builds this module's Candidate
 
     problem = as_problem(f, fprime=fprime, params=params)
-    sampler = Sampler(problem, int(max_evals))
+    sampler = Sampler(problem, int(max_evals), max_time)
     work = Work(sampler, touch_rtol=touch_rtol, edge_tol=edge_tol if edge_tol is not None else 1e-9 * xscale)
     try:
         if dom is not None:
@@ -287,9 +301,17 @@ def find_brackets(
             work.expand(x0, step if step is not None else 0.1 * max(1.0, abs(x0)))
     except Halt:
         pass
-    found = work.finish(near=x0)
+    except KeyboardInterrupt:  # outside f (inside f the sampler already turned it into a Halt)
+        sampler.interrupted = True
+    found = work.finish(near=x0)  # evaluates nothing more once interrupted
     notes = list(sampler.notes) + work.notes
-    if sampler.exhausted:
+    if sampler.interrupted:
+        notes.append(f"Interrupted (KeyboardInterrupt) after {sampler.count} evaluations; the candidates listed are "
+                     "what was found by then.")
+    elif sampler.timed_out:
+        notes.append(f"The time budget of {max_time:g} s ran out after {sampler.count} evaluations; the candidates "
+                     "listed are what was found by then. Raise max_time to search further.")
+    elif sampler.exhausted:
         notes.append(
             f"The evaluation budget of {max_evals} ran out; the candidates listed are what was found by then. "
             "Raise max_evals to search further."
@@ -306,6 +328,7 @@ def find_brackets(
         scale=work.scale,
         budget_exhausted=sampler.exhausted,
         vectorised=bool(sampler.vector),
+        interrupted=sampler.interrupted,
     )
 
 

@@ -5,7 +5,7 @@ it is not; :func:`inspect_dip` minimises s·f (s the common sign) to tell a
 touch of zero from a crossing, a near miss or nothing. Like
 ``_signchange.classify_sign_change`` they call f a bounded number of times
 through :class:`_Probe` (defined here, shared with ``_signchange``): an
-exception or NaN counts as undefined, and a ``max-evals``/``max-time``
+exception or NaN counts as undefined, and a ``max-evals``/``max-time``/``interrupted``
 :class:`~convdiag.core._step.Halt` stops the work with what was learnt.
 """
 
@@ -44,7 +44,7 @@ class _Probe:
         try:
             y = self.f(x)
         except Halt as h:
-            if h.reason in ("max-evals", "max-time"):
+            if h.reason in ("max-evals", "max-time", "interrupted"):
                 self.count -= 1
                 raise _Exhausted from None
             self.last_problem = h.message

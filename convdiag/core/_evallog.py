@@ -51,15 +51,24 @@ class _Raised:
         return f"raised {type(self.exc).__name__}: {self.exc}"
 
 
+def _brief(y: Any) -> str:
+    """The type and the start of the repr of a returned object (whose repr may itself fail)."""
+    try:
+        return f"{type(y).__name__} {y!r:.60}"
+    except Exception:  # noqa: BLE001 - the user's object cannot even show itself
+        return f"an object of type {type(y).__name__}"
+
+
 def classify_value(y: Any) -> tuple[float, str, str]:
     """Return ``(real value, status, note)`` for one returned value.
 
-    The value is NaN whenever the status is not ``ok``/``nan``/``inf``.
+    The value is NaN whenever the status is not ``ok``/``nan``/``inf``. Never raises: an object
+    whose conversion to a number fails (with any error) is ``not-a-number``.
     """
     if isinstance(y, _Raised):
         return math.nan, STATUS_RAISED, repr(y)
     if isinstance(y, bool) or y is None or isinstance(y, (str, bytes)):
-        return math.nan, STATUS_NOT_A_NUMBER, f"returned {type(y).__name__} {y!r:.60}"
+        return math.nan, STATUS_NOT_A_NUMBER, f"returned {_brief(y)}"
     if isinstance(y, np.ndarray):
         if y.size != 1:
             return math.nan, STATUS_SHAPE, f"returned an array of shape {y.shape}"
@@ -67,23 +76,28 @@ def classify_value(y: Any) -> tuple[float, str, str]:
     if isinstance(y, numbers.Real):
         try:
             v = float(y)
-        except (OverflowError, ValueError):
-            return math.nan, STATUS_INF, f"returned {y!r:.60}, too large for a float"
+        except OverflowError:
+            return math.nan, STATUS_INF, f"returned {_brief(y)}, too large for a float"
+        except Exception:  # noqa: BLE001 - a signalling NaN, a number type that will not convert
+            return math.nan, STATUS_NOT_A_NUMBER, f"returned {_brief(y)}"
         if math.isnan(v):
             return v, STATUS_NAN, "returned NaN"
         if math.isinf(v):
             return v, STATUS_INF, f"returned {v}"
         return v, STATUS_OK, ""
     if isinstance(y, numbers.Complex):
-        z = complex(y)
+        try:
+            z = complex(y)
+        except Exception:  # noqa: BLE001
+            return math.nan, STATUS_NOT_A_NUMBER, f"returned {_brief(y)}"
         if z.imag == 0.0:
             return classify_value(z.real)
         return math.nan, STATUS_COMPLEX, f"returned the complex number {z!r}"
     # mpmath numbers and other objects that convert to float
     try:
         v = float(y)
-    except (TypeError, ValueError, OverflowError):
-        return math.nan, STATUS_NOT_A_NUMBER, f"returned {type(y).__name__} {y!r:.60}"
+    except Exception:  # noqa: BLE001 - whatever the object raises, it is not a number
+        return math.nan, STATUS_NOT_A_NUMBER, f"returned {_brief(y)}"
     return classify_value(v)
 
 

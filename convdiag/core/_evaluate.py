@@ -14,7 +14,7 @@ from time import perf_counter
 from typing import Any, Literal
 
 from ._problem import Problem
-from ._record import D2F, DF, F, FD, EvalLog, _Raised, build_log, classify_value
+from ._record import D2F, DF, FD, EvalLog, F, _Raised, build_log, classify_value
 from ._step import Halt
 
 __all__ = ["Arithmetic", "Evaluator"]
@@ -143,7 +143,7 @@ class Evaluator:
         if self.arithmetic == "complex":
             try:
                 z = complex(y)
-            except (TypeError, ValueError, OverflowError):
+            except Exception:  # noqa: BLE001 - whatever the object raises, it is not a number
                 _, _, note = classify_value(y)
                 raise self._bad(what, x, n, note or f"returned {type(y).__name__}", "bad-value") from None
             if not (math.isfinite(z.real) and math.isfinite(z.imag)):
@@ -227,7 +227,12 @@ class Evaluator:
                 x=x,
                 evaluation=self.count,
             ) from exc
-        d = complex(y).imag / CSTEP_H
+        try:
+            d = complex(y).imag / CSTEP_H
+        except Exception:  # noqa: BLE001 - f returned something that is not a number
+            self.rows.append((DF, x, y, t0, perf_counter()))
+            _, _, note = classify_value(y)
+            raise self._bad("f'", x, self.count, note or f"returned {type(y).__name__}", "bad-value") from None
         self.rows.append((DF, x, d, t0, perf_counter()))
         return self._check(d, x, DF)  # type: ignore[no-any-return]
 
@@ -243,7 +248,7 @@ class Evaluator:
         t0 = perf_counter()
         try:
             cs = complex(self._f(complex(x, CSTEP_H))).imag / CSTEP_H
-        except Exception as exc:  # the function does not take complex input
+        except Exception as exc:  # noqa: BLE001 - the function does not take complex input
             self.rows.append((DF, complex(x, CSTEP_H), _Raised(exc), t0, perf_counter()))
             self.notes.append(
                 f"f does not accept complex input ({type(exc).__name__}); derivatives by central difference"

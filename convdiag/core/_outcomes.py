@@ -32,7 +32,7 @@ CONVERGED_CODES = np.array([r in CONVERGED for r in REASONS])
 #: Outcome classes by code (``Lanes.outcome_code`` indexes this).
 OUTCOMES: tuple[str, ...] = (
     "converged", "cycle", "divergence", "flat", "domain-error", "budget", "slow", "multiple-root", "stalled",
-    "no-bracket", "not-run",
+    "no-bracket", "timeout", "not-run",
 )
 OUTCOME_MEANING: dict[str, str] = {
     "converged": "met the stopping rule (step, residual or exact zero)",
@@ -46,6 +46,7 @@ OUTCOME_MEANING: dict[str, str] = {
     "stalled": "the steps stopped shrinking at the rounding-noise level (under 1e-12·|x|) without meeting "
     "the tolerance: loosen xtol/rtol",
     "no-bracket": "f has the same sign at both ends of the bracket, so a bracketing method cannot start",
+    "timeout": "not finished when the sweep's time budget (max_time) ran out; a worker still on it was stopped",
     "not-run": "not computed (the sweep was interrupted first)",
 }
 O = {o: np.uint8(i) for i, o in enumerate(OUTCOMES)}

@@ -42,6 +42,9 @@ from ._problem import Problem, as_problem
 __all__ = ["HighPrecision", "ReferenceRoot", "high_precision", "reference_root", "replay", "rounding_floor"]
 
 EPS = 2.220446049250313e-16
+#: The largest multiplicity taken seriously: the derivative-order test looks up to order 10 (common practice,
+#: no source; multiple roots of order above 10 are rare in models and cannot be told from a flat zero set).
+MAX_MULTIPLICITY = 12
 
 
 @dataclass(frozen=True, repr=False)
@@ -215,8 +218,6 @@ def reference_root(
     >>> ref.multiplicity, ref.confirmed, abs(float(ref.value) - 1.0) < 1e-300
     (3, True, True)
     """
-    import mpmath
-
     if not isinstance(digits, int) or isinstance(digits, bool) or not 16 <= digits <= 2000:
         raise ParameterError.expected("digits", "reference_root", "an int between 16 and 2000", digits)
     try:
@@ -228,6 +229,21 @@ def reference_root(
     problem = f if isinstance(f, Problem) else as_problem(f, params=params)
     hp = high_precision(problem, near=x0f)
     s = float(scale) if scale is not None and scale > 0 else max(abs(x0f), 1.0)
+    try:
+        return _search(hp, x0f, digits, s)
+    except ParameterError:
+        raise
+    except Exception as exc:  # noqa: BLE001 - f failed somewhere on the way (the check covered only near x0)
+        raise ParameterError(
+            f"{problem.label} failed in high-precision arithmetic near {x0f:.6g} ({type(exc).__name__}: "
+            f"{str(exc)[:80]}), so there is no high-precision root to compare with."
+        ) from None
+
+
+def _search(hp: Any, x0f: float, digits: int, s: float) -> ReferenceRoot:
+    """The body of :func:`reference_root`: Newton on f/f', the multiplicity, the confirmation."""
+    import mpmath
+
     notes: list[str] = []
     d1w = digits + 20
     with mpmath.workdps(d1w):
@@ -236,7 +252,9 @@ def reference_root(
             return ReferenceRoot(r1 if mpmath.isfinite(r1) else mpmath.mpf(x0f), "high-precision", 0, False,
                                  method="Newton on f/f'", notes=(f"Newton on f/f' from {x0f!r} did not converge",))
         m_rough = _multiplicity(hp, r1, mpmath.mpf("1e-8") * s)
-    m_int = round(m_rough) if math.isfinite(m_rough) and m_rough >= 0.5 else 1
+    # A multiplicity beyond MAX_MULTIPLICITY is no root's: f is not smooth there (a jump, noise). Capped, since
+    # the working precision grows with it (an estimate of 1e52 would ask for 1e53 digits).
+    m_int = round(m_rough) if math.isfinite(m_rough) and 0.5 <= m_rough <= MAX_MULTIPLICITY else 1
     d2w = max(d1w, m_int * (digits + 10) + 10)
     with mpmath.workdps(d2w):
         r2, ok2 = _newton_u(hp, mpmath.mpf(r1), mpmath.mpf(10) ** (8 - d2w), s)

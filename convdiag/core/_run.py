@@ -80,7 +80,7 @@ class Failure:
             "message": self.message,
             "advice": self.advice,
             "evaluation": self.evaluation,
-            "x": self.x,
+            "x": self.x if self.x is not None and math.isfinite(self.x) else None,  # JSON-ready
         }
 
 

@@ -14,6 +14,7 @@ complex numbers and mpmath numbers.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Iterator
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, Any, ClassVar
@@ -68,21 +69,28 @@ class Step:
     seconds: float = 0.0
 
     def to_dict(self) -> dict[str, Any]:
+        """JSON-ready: NaN and infinities become None, a complex number ``[re, im]`` (also inside lists)."""
+
         def num(v: Any) -> Any:
-            if v is None:
-                return None
+            if v is None or isinstance(v, str):
+                return v
+            if isinstance(v, (list, tuple)):
+                return [num(u) for u in v]
             try:
                 f = float(v)
             except (TypeError, ValueError, OverflowError):
-                z = complex(v)
-                return [z.real, z.imag]
-            return f if f == f and abs(f) != float("inf") else None
+                try:
+                    z = complex(v)
+                except (TypeError, ValueError, OverflowError):
+                    return None
+                return [num(z.real), num(z.imag)]
+            return f if math.isfinite(f) else None
 
         return {
             "index": self.index,
             "x": num(self.x),
             "fx": num(self.fx),
-            "model": {k: (num(v) if not isinstance(v, (str, list)) else v) for k, v in self.model.to_dict().items()},
+            "model": {k: num(v) for k, v in self.model.to_dict().items()},
             "reason": self.reason,
             "bracket": None if self.bracket is None else [num(self.bracket[0]), num(self.bracket[1])],
             "best": num(self.best),

@@ -32,12 +32,11 @@ from ._sweep_run import (
     Spec,
     brackets_for,
     col_slice,
-    run_dask,
     run_here,
-    run_pool,
     starts_for,
     table_dtype,
 )
+from ._sweep_workers import run_dask, run_pool
 from ._vector import VECTOR_METHODS
 from ._vfunctions import lane_functions
 
@@ -107,11 +106,13 @@ class SweepResult(Showable):
     params : the parameter names.
     method, label : the method and the function's label.
     grid : the :class:`ParamGrid` when the points form one (rows are in grid order), else None.
-    interrupted : the sweep was stopped by a KeyboardInterrupt before every chunk finished.
+    interrupted : the sweep was stopped by a KeyboardInterrupt before every point was computed (the points
+        not reached are ``not-run``).
     chunks, chunks_done : chunks in the sweep and chunks finished.
     runner : where the chunks ran ("vectorized", "lane-by-lane", "process-pool", "dask", "scalar").
     seconds : wall time.
     notes : anything worth knowing (failed chunks, lane-by-lane calls, ...).
+    timed_out : the time budget (``max_time``) ran out; the points not finished are ``timeout``.
     """
 
     table: Arr
@@ -125,6 +126,7 @@ class SweepResult(Showable):
     runner: str
     seconds: float
     notes: tuple[str, ...] = field(default=())
+    timed_out: bool = False
 
     def __len__(self) -> int:
         return int(self.table.shape[0])
@@ -157,7 +159,7 @@ class SweepResult(Showable):
 
     def __repr__(self) -> str:
         parts = ", ".join(f"{k} {v}" for k, v in self.counts().items())
-        cut = ", interrupted" if self.interrupted else ""
+        cut = ", interrupted" if self.interrupted else ", time budget ran out" if self.timed_out else ""
         return f"<SweepResult {self.method}: {len(self)} points ({parts}){cut}>"
 
 
@@ -231,6 +233,17 @@ def _probe(spec: Spec, cols: Mapping[str, Arr]) -> bool:
     return y.shape == x.shape and y.dtype.kind in "fciub"
 
 
+def _check_bracket(bracket: Any, owner: str) -> None:
+    """One bracket for every point: two finite, different numbers (in either order)."""
+    what = "a pair (a, b) of finite, different numbers, or a callable bracket(**params) -> (a, b)"
+    try:
+        a, b = (float(v) for v in bracket)
+    except (TypeError, ValueError):
+        raise ParameterError.expected("bracket", owner, what, bracket) from None
+    if not (np.isfinite(a) and np.isfinite(b) and a != b):
+        raise ParameterError.expected("bracket", owner, what, bracket)
+
+
 def sweep(
     f: Any,
     params: ParamGrid | Mapping[str, Any],
@@ -245,6 +258,7 @@ def sweep(
     ftol: float = 0.0,
     max_evals: int = 100,
     max_steps: int | None = None,
+    max_time: float | None = None,
     variable: str = "x",
     vectorized: bool | None = None,
     chunk_size: int | None = None,
@@ -270,6 +284,14 @@ def sweep(
         For bracketing methods: one bracket, or ``bracket(**params) -> (a, b)`` per point.
     fprime, fprime2, xtol, rtol, ftol, max_evals, max_steps, variable, vectorized
         As for :func:`~convdiag.core._vector.solve_many`, per point.
+    max_time : float, optional
+        Wall-time budget of the whole sweep, in seconds. When it runs out the sweep returns: every point
+        finished is kept, the others are marked ``timeout`` (stop reason ``max-time``). In a process pool
+        (``processes`` >= 2) a function that hangs is interrupted in its worker at the deadline, and a worker
+        still busy half a second later is killed; on Dask the chunks still running are abandoned. In this
+        process (the vectorised runner, ``processes=1``) the budget is checked between chunks and between
+        the points of a point-by-point chunk, so it cannot stop a call that never returns (nor the one
+        probe call on the first points, which ``vectorized=False`` skips).
     chunk_size : int, optional
         Points per chunk (default 65536 vectorised, 1024 point by point).
     client : dask.distributed.Client, optional
@@ -285,7 +307,8 @@ def sweep(
     -------
     SweepResult
         The table (a structured array; ``to_csv``), counts per outcome, and whether it was
-        interrupted. Never raises because of the user's function.
+        interrupted or ran out of time. Never raises because of the user's function. A
+        KeyboardInterrupt returns what was finished (the rest ``not-run``).
 
     Raises
     ------
@@ -313,7 +336,8 @@ def sweep(
     if clash:
         raise ParameterError(f"Parameter names {clash} clash with the sweep table's columns; rename them.")
     n = next(iter(cols.values())).size
-    _validate_settings(xtol, 0.0 if rtol is None else rtol, ftol, max_evals, None, max_steps, owner)
+    _validate_settings(xtol, 0.0 if rtol is None else rtol, ftol, max_evals, max_time, max_steps, owner)
+    deadline = None if max_time is None else time.time() + max_time
     vector = method in VECTOR_METHODS
     if not vector and method != "hybrid" and method not in METHODS:
         raise ParameterError.expected("method", owner, f"one of {', '.join(sorted({*METHODS, *VECTOR_METHODS}))}",
@@ -327,10 +351,18 @@ def sweep(
     if vector and start is None:
         raise ParameterError("Open methods need a start: pass start=x0, start=lambda **params: x0, or an array.")
     if vector and not callable(start):
-        s = np.asarray(start, dtype=np.float64)
+        try:
+            s = np.asarray(start, dtype=np.float64)
+        except (TypeError, ValueError):
+            s = np.full(2 * n + 1, np.nan)  # not numbers: refused below
         if not (s.ndim == 0 or s.shape == (n,)) or not np.all(np.isfinite(s)):
             raise ParameterError.expected("start", owner, f"a finite number, a callable or {n} finite numbers", start)
         start = float(s) if s.ndim == 0 else s
+    if bracketing and not callable(bracket):
+        _check_bracket(bracket, owner)
+    if method == "hybrid" and max_evals < 2:
+        raise ParameterError.expected("max_evals", owner, "an int >= 2 for hybrid (it evaluates both ends first)",
+                                      max_evals)
     if chunk_size is not None and (not isinstance(chunk_size, numbers.Integral) or chunk_size < 1):
         raise ParameterError.expected("chunk_size", owner, "an int >= 1", chunk_size)
     lane_functions(f, fprime, fprime2, list(cols), variable, owner)  # unknown parameters fail here, not per chunk
@@ -346,19 +378,23 @@ def sweep(
     try:
         if client is not None:
             runner = "dask"
-            stopped = run_dask(client, spec, cols, asm, sink, notes)
+            stopped = run_dask(client, spec, cols, asm, sink, notes, deadline)
         elif fast or workers <= 1:
             runner = "vectorized" if fast else ("lane-by-lane" if vector else "scalar")
-            stopped = run_here(spec, cols, asm, sink, notes)
+            stopped = run_here(spec, cols, asm, sink, notes, deadline)
         else:
             runner = "process-pool"
-            stopped = run_pool(spec, cols, asm, sink, notes, workers)
+            stopped = run_pool(spec, cols, asm, sink, notes, workers, deadline)
     finally:
         if sink is not None:
             sink.close()
     label = f if isinstance(f, str) else getattr(f, "__name__", type(f).__name__)
+    late = int(np.count_nonzero(asm.table["outcome"] == "timeout"))
+    if late:
+        notes.append(f"the time budget of {max_time:g} s ran out: {late} point(s) not finished are marked timeout")
     return SweepResult(
         table=asm.table, params=tuple(cols), method=method, label=str(label), grid=grid,
-        interrupted=bool(stopped) and len(asm.done) < len(bounds), chunks=len(bounds), chunks_done=len(asm.done),
-        runner=runner, seconds=time.perf_counter() - t0, notes=tuple(notes),
+        interrupted=bool(stopped) and bool(np.any(asm.table["outcome"] == "not-run")), chunks=len(bounds),
+        chunks_done=len(asm.done), runner=runner, seconds=time.perf_counter() - t0, notes=tuple(notes),
+        timed_out=bool(late),
     )

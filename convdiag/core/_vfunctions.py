@@ -72,7 +72,7 @@ class LaneFunctions:
             if cplx:
                 try:
                     z = complex(y)
-                except (TypeError, ValueError, OverflowError):
+                except Exception:  # noqa: BLE001 - whatever the object raises, it is not a number
                     codes[i] = R["bad-value"]
                     continue
                 out[i] = z

@@ -35,6 +35,7 @@ OUTCOME_COLOURS: dict[str, str] = {
     "multiple-root": "#1b7f8c",
     "stalled": "#a0522d",
     "no-bracket": "#7f8c8d",
+    "timeout": "#f1948a",
     "not-run": "#d5d8dc",
 }
 
@@ -193,7 +194,7 @@ class TextProgressBar:
 
     def line(self, done: int, total: int) -> str:
         frac = done / total if total else 1.0
-        full = int(round(frac * self.width))
+        full = round(frac * self.width)
         secs = time.perf_counter() - self.t0
         return f"sweep [{'#' * full}{'.' * (self.width - full)}] {frac:6.1%}  {_n(done)}/{_n(total)} points  {secs:.1f} s"
 

@@ -102,7 +102,7 @@ def tolerance_rule(run: Run) -> str:
     bracketing = run.bracket is not None and bool(run.steps) and run.steps[0].bracket is not None
     rule = "bracket width" if bracketing else "step"
     rel = f"{s.rtol:.2g}·|x|"
-    if run.arithmetic != "mpmath" and s.rtol > 0 and abs(s.rtol / _EPS - round(s.rtol / _EPS)) < 1e-9:
+    if run.arithmetic != "mpmath" and 0 < s.rtol < 1 and abs(s.rtol / _EPS - round(s.rtol / _EPS)) < 1e-9:
         rel += f" ({round(s.rtol / _EPS)} machine epsilons)"
     if s.xtol == 0:
         text = f"{rule} < {rel}" if s.rtol > 0 else f"{rule} = 0"
@@ -190,8 +190,8 @@ def run_html(run: Run) -> str:
         '<div style="font-family:system-ui,sans-serif;font-size:13px;">',
         f'<div style="font-weight:600;">{esc(run.method_title)} on <code>{esc(run.problem)}</code></div>',
         f'<div style="color:{colour};">{esc(_state(run))}</div>',
-        f"<div>{_root_label(run)} ≈ <code>{esc(fmt(run.root, 17))}</code> after {len(run.steps)} steps and "
-        f"{run.evaluations} evaluations; {esc(_tolerance_line(run))}</div>",
+        (f"<div>{_root_label(run)} ≈ <code>{esc(fmt(run.root, 17))}</code> after {len(run.steps)} steps and "
+         f"{run.evaluations} evaluations; {esc(_tolerance_line(run))}</div>"),
     ]
     if run.derivative_source:
         parts.append(f"<div>derivative: {esc(run.derivative_source)}</div>")
