@@ -244,7 +244,7 @@ def detect_domain_error(t: Trace, ctx: Context) -> Finding | None:
     xs = _finite_prefix(t)
     good = [float(x) for x, v in zip(xs, t.fs if t.fs is not None else xs) if math.isfinite(float(v))]
     ev: list[Evidence] = [("failed evaluations", len(fails), "raised, NaN or not a real number"),
-                          ("first failure at x", x_u, f"{status}: {note}"[:160])]
+                          ("first failure at x", x_u, (note if note.startswith(status) else f"{status}: {note}")[:160])]
     advice_where = ""
     if good and math.isfinite(x_u):
         x_d = min(good, key=lambda v: abs(v - x_u))
