@@ -13,12 +13,14 @@ uses it to stay fast).
 
 The function curve is sampled outside the run's record (the run's
 evaluation count is unchanged): vectorised when f takes arrays, else point
-by point, NaN where f fails.
+by point, NaN where f fails, and through fewer points when f is slow
+(about two seconds per curve).
 """
 
 from __future__ import annotations
 
 import math
+import time
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from typing import Any
@@ -56,8 +58,13 @@ def _one(f: Callable[[Any], Any], x: float) -> float:
         return math.nan
 
 
-def sample_curve(f: Callable[[Any], Any], lo: float, hi: float, n: int = 300) -> tuple[FloatArray, FloatArray]:
+def sample_curve(f: Callable[[Any], Any], lo: float, hi: float, n: int = 300, *,
+                 seconds: float = 2.0) -> tuple[FloatArray, FloatArray]:
     """f on ``n`` equally spaced points of [lo, hi]; NaN where f raises or is not a real number.
+
+    A function that does not take arrays is sampled point by point within about ``seconds`` of wall
+    time: when the first points show that ``n`` of them would take longer (an inner ODE solve, a
+    quadrature), the curve is drawn through fewer points, at least 16.
 
     Examples
     --------
@@ -75,9 +82,29 @@ def sample_curve(f: Callable[[Any], Any], lo: float, hi: float, n: int = 300) ->
     except Exception:  # noqa: BLE001  (not vectorised: go point by point)
         ys = None
     if ys is None:
-        ys = np.array([_one(f, x) for x in xs], dtype=np.float64)
+        ys = _point_by_point(f, xs, seconds)
+        if ys.shape != xs.shape:  # too slow for n points: fewer, still evenly spaced
+            xs = np.linspace(lo, hi, ys.shape[0])
+            ys = np.array([_one(f, x) for x in xs], dtype=np.float64)
     ys[~np.isfinite(ys)] = np.nan
     return xs, ys
+
+
+_MIN_SAMPLES = 16
+
+
+def _point_by_point(f: Callable[[Any], Any], xs: FloatArray, seconds: float) -> FloatArray:
+    """f at each of ``xs``; or, when the first few calls show that would exceed ``seconds``, an empty array of the
+    length that fits (the caller resamples on that many points)."""
+    n, out, t0 = xs.shape[0], [], time.perf_counter()
+    for i, x in enumerate(xs):
+        out.append(_one(f, x))
+        if i == 2 and n > _MIN_SAMPLES:
+            per_call = (time.perf_counter() - t0) / 3
+            fits = int(seconds / per_call) if per_call > 0 else n
+            if fits < n:
+                return np.empty(max(_MIN_SAMPLES, fits))
+    return np.array(out, dtype=np.float64)
 
 
 def auto_xlim(points: Sequence[float], *, core: Sequence[float] = (), reach: float = 25.0) -> tuple[float, float]:

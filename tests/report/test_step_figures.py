@@ -12,6 +12,7 @@ Check values, by hand on f = x² − 2 (f' = 2x, f'' = 2):
 from __future__ import annotations
 
 import math
+import time
 
 import numpy as np
 import pytest
@@ -88,6 +89,27 @@ def test_the_curve_is_sampled_point_by_point_where_f_is_not_vectorised_and_nan_w
     _, ys = sample_curve(lambda x: math.sqrt(x) - 1, -1.0, 1.0, 5)
     assert np.isnan(ys[:2]).all()
     np.testing.assert_allclose(ys[2:], [-1.0, math.sqrt(0.5) - 1, 0.0])
+
+
+def test_a_slow_function_is_drawn_through_fewer_points_within_the_time_allowed():
+    calls = []
+
+    def slow(x):  # an inner solve taking 50 ms per evaluation
+        calls.append(x)
+        time.sleep(0.05)
+        return math.cos(x) - x
+
+    xs, ys = sample_curve(slow, 0.0, 1.0, 300, seconds=0.5)
+    # 300 points would take 15 s; about 0.5 s / 0.05 s = 10 fit, raised to the floor of 16, evenly spaced
+    assert len(xs) == 16 and xs[0] == 0.0 and xs[-1] == 1.0
+    assert len(calls) == 1 + 3 + 16  # the array tried once (refused), three that measured the pace, the curve
+    np.testing.assert_allclose(ys, np.cos(xs) - xs)  # the same values, fewer of them
+
+
+def test_a_fast_scalar_function_gets_every_point_it_asked_for():
+    xs, ys = sample_curve(lambda x: math.cos(x) - x, 0.0, 1.0, 300)
+    assert len(xs) == 300
+    np.testing.assert_allclose(ys, np.cos(xs) - xs)
 
 
 def test_auto_xlim_leaves_a_wild_step_out_of_the_picture():
