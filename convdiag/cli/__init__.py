@@ -15,6 +15,7 @@ from __future__ import annotations
 
 import argparse
 import importlib
+import os
 import sys
 from collections.abc import Sequence
 
@@ -56,4 +57,8 @@ def main(argv: Sequence[str] | None = None) -> int:
         return 2
     except KeyboardInterrupt:
         print(f"{PROG}: interrupted", file=sys.stderr)
+        return 1
+    except BrokenPipeError:  # the reader went away (`convdiag run ... | head`): stop quietly, as other tools do
+        devnull = os.open(os.devnull, os.O_WRONLY)  # Python flushes stdout at exit: point it somewhere harmless
+        os.dup2(devnull, sys.stdout.fileno())
         return 1

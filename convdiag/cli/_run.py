@@ -7,6 +7,7 @@ import json
 import sys
 from typing import Any
 
+from ..errors import InputFileError
 from ._common import function_arg, load_file_function, parse_params
 
 
@@ -39,19 +40,21 @@ def _cmd_run(args: argparse.Namespace) -> int:
     from ..core._diagnose import diagnose
     from ..core._order import estimate_order, order_json
 
-    diagnosis = diagnose(run, root=args.root)
     try:
         estimate = estimate_order(run, root=args.root)
     except (TypeError, ValueError, ArithmeticError) as exc:  # a reference root that could not be computed
         print(f"convdiag: note: no high-precision reference ({type(exc).__name__}: {exc}); the order is measured "
               "from successive differences", file=sys.stderr)
         estimate = estimate_order(run, root=args.root, reference="differences", replay=False)
+    diagnosis = diagnose(run, root=args.root, order=estimate)  # shows the same estimate as the order section
     if args.json:
         out = run.to_dict()
         if args.root is not None:
             out["known_root"] = args.root
         measured = order_json(estimate)
         out.update({key: measured[key] for key in ("order", "rate", "multiplicity", "efficiency")})
+        # which iterates the order's window counts: the run's own ("run") or a high-precision replay of it
+        out["order"]["basis"], out["order"]["digits"] = measured["basis"], measured["digits"]
         out["verdict"] = diagnosis.verdict
         out["findings"] = [f.to_dict() for f in diagnosis.findings]
         out["probes"] = diagnosis.probes
@@ -69,7 +72,24 @@ def _cmd_run(args: argparse.Namespace) -> int:
         print(order_text(estimate))
         print()
         print(diagnosis_text(diagnosis))
-    return 0 if run.converged else 1
+    if args.report:
+        _write_report(run, diagnosis, args.report)
+    # a sign change that is a pole, or an exact zero on a flat stretch, met the rule but is no root
+    return 0 if run.converged and diagnosis.verdict not in ("flat", "pole") else 1
+
+
+def _write_report(run: Any, diagnosis: Any, folder: str) -> None:
+    """The run with its diagnosis and order estimate as a report in ``folder``; the paths go to stderr."""
+    from ..report import make_report
+
+    title = f"{run.method_title} on {run.problem}"
+    try:
+        written = make_report(diagnosis, title=title).save(folder)
+    except OSError as exc:
+        raise InputFileError(f"Could not write the report into {folder!r}: {exc.strerror or exc}. The run above is "
+                             "complete; choose a folder you can write to and run again.") from None
+    html = written.get("html", next(iter(written.values())))
+    print(f"Report written: {html} (and {written.get('markdown', 'the Markdown file')})", file=sys.stderr)
 
 
 def _check_run(args: argparse.Namespace) -> str:
@@ -132,6 +152,8 @@ def register(sub: Any) -> None:
                    help="multiplicity setting of --method newton-m (the root's multiplicity)")
     r.add_argument("--root", type=float, metavar="R", help="the true root, if known")
     r.add_argument("--json", action="store_true", help="print one JSON object")
+    r.add_argument("--report", metavar="DIR",
+                   help="also write a report (Markdown, self-contained HTML, PNG figures) into DIR")
     r.set_defaults(func=_cmd_run, check=_check_run)
 
     m = sub.add_parser("methods", help="list the methods with their order and efficiency")

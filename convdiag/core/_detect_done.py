@@ -70,7 +70,7 @@ def detect_converged(t: Trace, ctx: Context) -> Finding | None:
         if t.fs is None:
             return None
         r0, r1 = abs(float(t.fs[0])), abs(float(t.fs[-1]))
-        est = ctx.order
+        est = ctx.order_to_show
         ev0: list[Evidence] = [("|f| first → last", (r0, r1), f"{len(t.fs)} residuals")]
         if est is not None:
             ev0.append(("convergence", est.label_text, est.reference))
@@ -79,14 +79,14 @@ def detect_converged(t: Trace, ctx: Context) -> Finding | None:
                        None, (), tag="")
     k = t.best_index()
     x = float(t.xs[k])
-    est = ctx.order
+    est = ctx.order_to_show
     ev: list[Evidence] = [("root", x, f"iterate {k}")]
     if t.fs is not None:
         ev.append(("|f(root)|", abs(float(t.fs[k])), ""))
     if t.total_evals is not None:
         ev.append(("evaluations", t.total_evals, ""))
     if est is not None:
-        wandered = window_note(t, ctx)
+        wandered = window_note(t, ctx) if est is ctx.order else ""
         ev.append(("convergence", est.label_text, est.reference + ("; over a window that includes the wandering "
                                                                    "before the final approach" if wandered else "")))
     if t.stop_reason:

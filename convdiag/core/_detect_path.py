@@ -71,6 +71,8 @@ class Context:
     bracket: tuple[float, float] | None = None
     cache: dict[str, Any] = field(default_factory=dict)
     notes: list[str] = field(default_factory=list)
+    #: an order estimate the caller made (with its high-precision replay), shown instead of :attr:`order`
+    shown_order: Any = None
 
     @property
     def order(self) -> Any:
@@ -78,6 +80,11 @@ class Context:
         if "order" not in self.cache:
             self.cache["order"] = self.order_fn() if self.order_fn is not None else None
         return self.cache["order"]
+
+    @property
+    def order_to_show(self) -> Any:
+        """The caller's order estimate if one was given, else the diagnosis's own."""
+        return self.shown_order if self.shown_order is not None else self.order
 
     @property
     def order_if_measured(self) -> Any:

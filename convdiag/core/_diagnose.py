@@ -209,6 +209,7 @@ def diagnose(
     bracket: tuple[float, float] | None = None,
     probe: bool = True,
     max_probe_evals: int = 60,
+    order: Any = None,
 ) -> Diagnosis:
     """Name why a solver stalled (or confirm that it converged), with the evidence and a fix.
 
@@ -235,6 +236,10 @@ def diagnose(
         edge, bracket search for the remedy, a high-precision reference for a recording).
     max_probe_evals : int
         At most this many extra evaluations (``Diagnosis.probes`` reports how many were made).
+    order : OrderEstimate, optional
+        An order estimate you already made of the same source (``estimate_order(run)``, with its
+        high-precision replay): the diagnosis shows it instead of its own. Its detectors still read
+        the rates of the run's own double-precision iterates.
 
     Returns
     -------
@@ -270,12 +275,16 @@ def diagnose(
     from ._detect_trace import Prober, build_trace, trace_converged
 
     _check(source, xtol, ftol, method, root, max_probe_evals, bracket)
+    if order is not None and type(order).__name__ != "OrderEstimate":
+        raise ParameterError.expected("order", "diagnose", "an OrderEstimate (from convdiag.estimate_order) or None",
+                                      order)
     t = build_trace(source, f=f, fprime=fprime, method=method, xtol=xtol, ftol=ftol)
     notes: list[str] = list(t.notes)
     prober = Prober(t.f, max_probe_evals, enabled=probe)
     ctx = Context(prober, root=root, bracket=None if bracket is None else (float(bracket[0]), float(bracket[1])),
                   notes=notes)
     ctx.order_fn = lambda: order_estimate(t, root, probe, notes)
+    ctx.shown_order = order
     found: list[Finding] = []
 
     def run(detector: Callable[[Any, Any], Finding | None]) -> Finding | None:
@@ -328,7 +337,7 @@ def diagnose(
     return Diagnosis(
         verdict=verdict,
         findings=tuple(ordered),
-        order=ctx.order_if_measured,
+        order=ctx.order_if_measured if order is None or broken else order,
         probes=prober.count,
         source_kind=t.kind,
         label=t.label,

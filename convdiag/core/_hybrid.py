@@ -374,6 +374,23 @@ class Hybrid(Method):
         return x, InversePolynomial(tuple(xs), tuple(ys), shift), f"accepted interpolation: {label}, {step_note}", None
 
 
+def suspect_stop(run: Any) -> str:
+    """``"flat"`` or ``"pole"`` when a hybrid run met its stopping rule on a sign change that may not be a root.
+
+    The run's last step says so (module docstring): an exact zero in a still-wide bracket ("f may be
+    flat"), or |f| at both ends grown as the bracket shrank ("a pole, not a root, may be inside").
+    Empty for any other run. The diagnosis decides (``flat`` or ``pole`` findings) by probing f.
+    """
+    if not run.converged or not run.steps or run.method != "hybrid":
+        return ""
+    reason = str(run.steps[-1].reason)
+    if "f may be flat" in reason:
+        return "flat"
+    if "a pole, not a root, may be inside" in reason:
+        return "pole"
+    return ""
+
+
 def zero_in_wide_bracket(run: Any) -> tuple[Any, Any] | None:
     """The bracket around an exact zero that stopped a run while it was still wide, else None.
 

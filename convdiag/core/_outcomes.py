@@ -32,13 +32,14 @@ CONVERGED_CODES = np.array([r in CONVERGED for r in REASONS])
 #: Outcome classes by code (``Lanes.outcome_code`` indexes this).
 OUTCOMES: tuple[str, ...] = (
     "converged", "cycle", "divergence", "flat", "domain-error", "budget", "slow", "multiple-root", "stalled",
-    "no-bracket", "timeout", "not-run",
+    "no-bracket", "timeout", "not-run", "pole",
 )
 OUTCOME_MEANING: dict[str, str] = {
     "converged": "met the stopping rule (step, residual or exact zero)",
     "cycle": "stayed bounded without converging (a cycle or erratic wandering)",
     "divergence": "the iterates ran away: overflowed, or went beyond 1e4 times the start's scale",
-    "flat": "a zero derivative or equal values stopped it, or a near-flat spot threw a step far away",
+    "flat": "a zero derivative or equal values stopped it, a near-flat spot threw a step far away, or f is "
+    "exactly zero over a stretch (underflow) where a bracketing method stopped",
     "domain-error": "the function raised or returned NaN, infinity or a non-real value",
     "budget": "the budget ran out while the steps were still shrinking",
     "slow": "the budget ran out during linear (slow) convergence",
@@ -48,6 +49,7 @@ OUTCOME_MEANING: dict[str, str] = {
     "no-bracket": "f has the same sign at both ends of the bracket, so a bracketing method cannot start",
     "timeout": "not finished when the sweep's time budget (max_time) ran out; a worker still on it was stopped",
     "not-run": "not computed (the sweep was interrupted first)",
+    "pole": "a bracketing method closed in on a sign change where |f| grew: a pole or jump, not a root",
 }
 O = {o: np.uint8(i) for i, o in enumerate(OUTCOMES)}
 KICK = 1e3  # a step longer than KICK * max(1, |x|) was thrown far (a near-flat spot)

@@ -201,7 +201,8 @@ def run_chunk(payload: Spec | bytes, chunk: int, lo: int, cols: Mapping[str, Arr
                 status = res.status.tolist()
                 out["root"][ok], out["f_root"][ok], out["evals"][ok] = res.root, res.fun, res.evaluations
                 out["steps"][ok] = np.maximum(res.evaluations - 2, 0)
-                out["outcome"][ok] = [_OC[_HYBRID_OUTCOME.get(s, "domain-error")] for s in status]
+                out["outcome"][ok] = [_OC[sus or _HYBRID_OUTCOME.get(s, "domain-error")]  # a flat stretch or pole
+                                      for s, sus in zip(status, res.suspect.tolist())]  # is not a root
                 out["reason"][ok] = [_RC.get(s, _RC["bad-value"]) for s in status]
             elif ok.size and _scalar_points(spec, cols, a, b, ok, out, deadline):
                 raise ChunkInterrupted(chunk, out)

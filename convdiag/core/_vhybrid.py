@@ -6,6 +6,18 @@ running. Every lane reproduces what ``solve(f, "hybrid", bracket=(a, b), ...)`` 
 the same settings: the same points, the same number of evaluations, the same stop reason and
 root (the operations are the same IEEE operations in the same order; powers use numpy's
 ``power`` in both). It records no steps; rerun one lane with ``solve`` to see them.
+
+Each converged lane is also checked for the two cases where a sign change is not a root
+(``suspect``; the scalar method says the same in its step reasons and the diagnosis names them):
+
+* ``"flat"``: the lane stopped on an exact zero while its bracket was still wider than the
+  tolerance, and f is exactly zero at two probes 2^-10 of the bracket width either side
+  (inside the bracket): f underflows to zero over a stretch, as x·exp(-1/x²) does. An
+  isolated root hit exactly (a bracket end at a root, a lucky step) is nonzero there. The
+  probes are not in ``evaluations`` (which match ``solve``'s lane by lane); ``probes`` counts them.
+* ``"pole"``: the bracket shrank to the tolerance but the smaller |f| at its two ends ended
+  above the smaller |f| at the starting ends: |f| grew as the bracket closed in, a pole or
+  jump, not a root.
 """
 
 from __future__ import annotations
@@ -13,7 +25,7 @@ from __future__ import annotations
 import math
 import numbers
 from collections.abc import Callable, Mapping
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
@@ -49,6 +61,10 @@ class HybridMany(Showable):
         ``no-sign-change``, ``function-raised`` (the stop reasons of :class:`~convdiag.Run`,
         plus ``no-sign-change`` where ``solve`` would raise BracketError).
     lo, hi : the final bracket.
+    suspect : ``""``, or for a converged lane whose sign change is not a root, ``"flat"`` (f is
+        exactly zero over a stretch) or ``"pole"`` (|f| grew as the bracket closed in); see the
+        module docstring.
+    probes : evaluations made for those checks, in all lanes together.
     """
 
     root: FloatArray
@@ -61,6 +77,8 @@ class HybridMany(Showable):
     xtol: float
     rtol: float
     max_evals: int
+    suspect: NDArray[np.str_] = field(default_factory=lambda: np.zeros(0, dtype="<U4"))
+    probes: int = 0
 
     def __repr__(self) -> str:
         n = int(self.root.size)
@@ -231,6 +249,18 @@ def hybrid_many(
         min_abs[idx], min_x[idx], min_f[idx] = np.abs(y[better]), x[better], y[better]
         return y
 
+    probes = [0]
+
+    def probe(x: FloatArray, lanes: NDArray[np.intp]) -> FloatArray | None:
+        """f at extra points, counted as evaluations; leaves the lanes' status alone."""
+        try:
+            y = np.broadcast_to(np.asarray(f(x, **{k: v[lanes] for k, v in pm.items()}), dtype=float), x.shape)
+        except Exception:  # noqa: BLE001  (no verdict from the probes: the lane keeps its result)
+            return None
+        finally:
+            probes[0] += int(lanes.size)
+        return y
+
     with np.errstate(all="ignore"):
         everyone = np.arange(n)
         fa = call(a, everyone)
@@ -247,9 +277,13 @@ def hybrid_many(
         root[zero_a], fun[zero_a] = a[zero_a], 0.0
         root[zero_b], fun[zero_b] = b[zero_b], 0.0
         status[(status == _RUN) & _same_sign(fa, fb)] = _SIGN
+        small0 = np.minimum(np.abs(fa), np.abs(fb))
         _loop(call, status, evals, root, fun, a, fa, b, fb, xtol, rtol, max_evals)
         lost = np.isin(status, (_BUDGET, _NONFINITE, _RAISED))
         root[lost], fun[lost] = min_x[lost], min_f[lost]
+        suspect = np.full(n, "", dtype="<U4")
+        suspect[(status == _SMALL) & (np.minimum(np.abs(fa), np.abs(fb)) > small0)] = "pole"
+        _flat_zeros(probe, status, root, a, b, xtol, rtol, suspect)
     converged = np.isin(status, (_ZERO, _SMALL))
     return HybridMany(
         root.reshape(shape),
@@ -262,7 +296,27 @@ def hybrid_many(
         xtol,
         rtol,
         int(max_evals),
+        suspect.reshape(shape),
+        probes[0],
     )
+
+
+def _flat_zeros(probe: Any, status: Any, root: FloatArray, a: FloatArray, b: FloatArray, xtol: float, rtol: float,
+                suspect: Any) -> None:
+    """Mark ``"flat"`` the exact-zero lanes whose bracket is still wide and f is 0 at both probes (docstring)."""
+    wide = np.flatnonzero((status == _ZERO) & (b - a > xtol + rtol * np.abs(root)))
+    if wide.size == 0:
+        return
+    x, lo, hi = root[wide], a[wide], b[wide]
+    d = np.ldexp(hi - lo, -10)
+    left, right = np.maximum(x - d, lo), np.minimum(x + d, hi)  # a root at a bracket end: both probes inside
+    left = np.where(left == x, x + d / 2, left)
+    right = np.where(right == x, x - d / 2, right)
+    yl = probe(left, wide)
+    yr = None if yl is None else probe(right, wide)
+    if yl is None or yr is None:
+        return
+    suspect[wide[(yl == 0) & (yr == 0)]] = "flat"
 
 
 def _loop(

@@ -107,7 +107,8 @@ def _order_line(d: Diagnosis) -> str:
     e = d.order
     if e is None:
         return ""
-    return f"Observed order: {e.label_text} (reference: {e.reference})"
+    where = f"; a replay of the run at {e.digits} digits" if getattr(e, "basis", "run") == "replay" else ""
+    return f"Observed order: {e.label_text} (reference: {e.reference}{where})"
 
 
 def diagnosis_text(d: Diagnosis) -> str:

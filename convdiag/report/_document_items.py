@@ -132,9 +132,9 @@ def _run_doc(run: Any, index: int, numbered: bool, diagnosis: Any = None) -> Ite
     from ._text import run_html, run_rows
 
     name = f"item{index}"
-    if diagnosis is None:
-        diagnosis = _diagnose(run)
     estimate = estimate_order(run)
+    if diagnosis is None:
+        diagnosis = _diagnose(run, estimate)
     head = f"{index + 1}. " if numbered else ""
     sections = [Section(f"{head}{run.method_title} on {run.problem}", "", "", level=2)]
 
@@ -178,10 +178,10 @@ def _run_doc(run: Any, index: int, numbered: bool, diagnosis: Any = None) -> Ite
     return ItemDoc(tuple(sections), _run_summary(run, diagnosis))
 
 
-def _diagnose(run: Any) -> Any:
+def _diagnose(run: Any, estimate: Any = None) -> Any:
     from ..core._diagnose import diagnose
 
-    return diagnose(run)
+    return diagnose(run, order=estimate)  # the diagnosis shows the same order estimate as the report's order part
 
 
 # -- everything else -------------------------------------------------------------------

@@ -37,6 +37,7 @@ OUTCOME_COLOURS: dict[str, str] = {
     "no-bracket": "#7f8c8d",
     "timeout": "#f1948a",
     "not-run": "#d5d8dc",
+    "pole": "#7b241c",
 }
 
 

@@ -84,12 +84,23 @@ def html_table(
 
 
 def _state(run: Run) -> str:
+    from ..core._hybrid import suspect_stop
+
+    doubt = suspect_stop(run)
+    if doubt:
+        what = ("f is exactly zero over a stretch here (flat), not necessarily at a root" if doubt == "flat" else
+                "|f| grew as the bracket closed in: a pole or jump, not a root")
+        return f"stopped by its rule ({run.stop_reason}), but not at a confirmed root: {what}; see the diagnosis"
     if run.converged:
         return f"converged ({run.stop_reason}: {run.message})"
     return f"did not converge ({run.stop_reason}): {run.message}"
 
 
 def _root_label(run: Run) -> str:
+    from ..core._hybrid import suspect_stop
+
+    if suspect_stop(run):
+        return "stopped at x"
     return "root" if run.converged else "best point so far"
 
 

@@ -133,7 +133,7 @@ def test_run_on_the_tan_pole_reports_the_pole_without_a_traceback(capsys):
     # tan has a pole at π/2 inside [1, 2] (REFERENCES §4); bisection "converges" on it by its own rule
     code, out, err = run_cli(capsys, "run", "tan(x)", "-m", "bisection", "--bracket", "1", "2", "--json")
     d = json.loads(out)
-    assert code == 0 and d["verdict"] == "pole" and d["findings"][0]["kind"] == "pole"
+    assert code == 1 and d["verdict"] == "pole" and d["findings"][0]["kind"] == "pole"  # no root: exit 1
     assert "Traceback" not in err
 
 

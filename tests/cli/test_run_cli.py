@@ -124,3 +124,68 @@ def test_import_convdiag_loads_numpy_only():
     )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == ""
+
+
+@pytest.mark.parametrize(("expr", "bracket", "verdict", "headline"), [
+    # 1/(x - 0.3): a sign change at a pole, |f| -> inf (any calculus text)
+    ("1/(x - 0.3)", ("0", "1"), "pole", "a pole or jump, not a root"),
+    # x*exp(-1/x**2) underflows to exactly 0 for |x| < ~0.037 (Alefeld, Potra and Shi 1995, problem 13)
+    ("x*exp(-1/x**2)", ("-1", "4"), "flat", "f is exactly zero over a stretch"),
+])
+def test_a_sign_change_that_is_no_root_exits_1_and_says_so_in_the_headline(capsys, expr, bracket, verdict, headline):
+    code, out, _ = run_cli(capsys, "run", expr, "--method", "hybrid", "--bracket", *bracket)
+    assert code == 1
+    assert headline in out.splitlines()[1] and "not at a confirmed root" in out.splitlines()[1]
+    assert f"verdict: {verdict}" in out
+    code, out, _ = run_cli(capsys, "run", expr, "--method", "hybrid", "--bracket", *bracket, "--json")
+    assert code == 1 and json.loads(out)["verdict"] == verdict
+
+
+def test_the_json_order_says_whether_its_window_counts_a_high_precision_replay(capsys):
+    # IQI on x**3 - 2x - 5 (Wallis's cubic, root 2.0945514815423265..., mpmath) converges in too few double
+    # precision steps for a window; the estimate replays the run at higher precision and must say so
+    code, out, _ = run_cli(capsys, "run", "x**3 - 2*x - 5", "--method", "iqi", "--start", "2", "--json")
+    order = json.loads(out)["order"]
+    assert code == 0 and order["basis"] == "replay" and order["digits"] >= 60
+    assert order["value"] == pytest.approx(1.839, abs=0.1)  # theory: the real root of t^3 = t^2 + t + 1, 1.8393
+
+
+def test_the_diagnosis_shows_the_same_order_estimate_as_the_order_section(capsys):
+    code, out, _ = run_cli(capsys, "run", "x**3 - 2*x - 5", "--method", "iqi", "--start", "2")
+    order_line = [ln for ln in out.splitlines() if ln.startswith("Observed order:")]
+    assert code == 0 and len(order_line) == 1
+    assert "order 1.84" in order_line[0] and "replay" in order_line[0]
+
+
+def test_a_closed_pipe_ends_the_command_quietly():
+    # `convdiag run ... | head -2`: the reader closes the pipe early; no traceback may reach the terminal
+    proc = subprocess.Popen([sys.executable, "-m", "convdiag", "run", "1/(x - 0.3)", "--method", "hybrid",
+                             "--bracket", "0", "1"], stdout=subprocess.PIPE, stderr=subprocess.PIPE)
+    with proc:
+        proc.stdout.readline()
+        proc.stdout.close()
+        err = proc.stderr.read().decode()
+        proc.wait(timeout=60)
+    assert "Traceback" not in err and "BrokenPipeError" not in err
+
+
+def test_report_writes_markdown_html_and_figures_that_document_the_run(capsys, tmp_path):
+    # Newton from 0 on x**3 - 2x + 2 cycles 0, 1, 0, 1 (Burden & Faires, Numerical Analysis, from memory)
+    folder = tmp_path / "cycle-report"
+    code, out, err = run_cli(capsys, "run", "x**3 - 2*x + 2", "--method", "newton", "--start", "0",
+                             "--report", str(folder))
+    assert code == 1 and "verdict: cycle" in out
+    page = (folder / "report.html").read_text(encoding="utf-8")
+    md = (folder / "report.md").read_text(encoding="utf-8")
+    assert "Report written" in err and str(folder / "report.html") in err
+    for text in (page, md):
+        assert "x**3 - 2*x + 2" in text and "cycle" in text and "Observed order of convergence" in text
+    assert page.count("data:image/png;base64,") >= 2 and sorted(p.suffix for p in (folder / "figures").iterdir())[0] == ".png"
+
+
+def test_report_into_a_folder_that_cannot_be_written_exits_2_after_printing_the_run(capsys, tmp_path):
+    blocker = tmp_path / "a-file"
+    blocker.write_text("not a folder")
+    code, out, err = run_cli(capsys, "run", "x**2 - 2", "--start", "1", "--report", str(blocker / "sub"))
+    assert code == 2 and "converged" in out  # the run's output is not lost
+    assert err.startswith("convdiag: error:") and "a-file" in err

@@ -184,3 +184,17 @@ def test_bad_sweep_arguments_are_refused_with_what_to_do():
         sweep(kepler, {"M": [1.0], "e": [0.1], "a": [2.0]}, start=1.0)
     with pytest.raises(ParameterError, match="'chunk_size' parameter of sweep must be an int >= 1"):
         sweep(kepler, pts, start=1.0, chunk_size=0)
+
+
+def test_a_hybrid_sweep_names_poles_and_flat_zero_sets_instead_of_calling_them_converged():
+    # 1/(x - c) changes sign at a pole (|f| -> inf as x -> c; any calculus text); x*exp(-1/x**2) - c with c = 0
+    # underflows to exactly 0 for |x| < ~0.037 (Alefeld, Potra and Shi 1995, problem 13); with c = 0.1 its root is
+    # the solution of x*exp(-1/x**2) = 0.1, checked with scipy.optimize.brentq.
+    from scipy.optimize import brentq
+
+    poles = sweep("1/(x - c)", {"c": [0.3, 0.6]}, method="hybrid", bracket=(0.0, 1.0)).table
+    assert poles["outcome"].tolist() == ["pole", "pole"]
+    flat = sweep("x*exp(-1/x**2) - c", {"c": [0.0, 0.1]}, method="hybrid", bracket=(-1.0, 4.0)).table
+    assert flat["outcome"].tolist() == ["flat", "converged"]
+    ref = brentq(lambda x: x * math.exp(-1 / x**2) - 0.1, 0.1, 4.0, xtol=1e-15)
+    assert flat["root"][1] == pytest.approx(ref, rel=1e-13)
