@@ -35,6 +35,7 @@ from ._session import Session, solve, start_session
 from ._step import Halt, Method, Start, Step
 from ._sweep import ParamGrid, SweepResult, param_grid, read_sweep_csv, sweep
 from ._vector import OUTCOMES, Lanes, classify_run, solve_many
+from ._vhybrid import HybridMany, hybrid_many
 
 __all__ = [
     "CONVERGED",
@@ -54,6 +55,7 @@ __all__ = [
     "Finding",
     "Halley",
     "Halt",
+    "HybridMany",
     "Illinois",
     "InverseParabola",
     "InverseQuadratic",
@@ -91,6 +93,7 @@ __all__ = [
     "diagnose",
     "estimate_order",
     "find_brackets",
+    "hybrid_many",
     "load_sequence",
     "order_json",
     "param_grid",

@@ -143,8 +143,13 @@ def _measure(
             est["error_constant_note"] = (f"median of e_(k+1)/e_k^{nominal:.4g} over the later half of the window"
                                           + (f"; theory {formula} at the root" if theory is not None else ""))
     if a.label == "linear" and nominal is not None and nominal > 1.5 and (hp is None or hp.multiplicity == 1):
-        notes.append(f"{method} should converge with order {nominal:.3g} at a simple root but is linear here: "
-                     "check the derivative (a wrong f' gives a linear rate |1 − f'(r)/g(r)|) or the function's smoothness")
+        if hp is None and m is not None and m > 1:  # no reference to say the root is simple: the rate's reading first
+            notes.append(f"{method} converges only linearly here; its rate implies a root of multiplicity {m}, or a "
+                         "wrong f' (a wrong derivative gives a linear rate |1 − f'(r)/g(r)|)")
+        else:
+            notes.append(f"{method} should converge with order {nominal:.3g} at a simple root but is linear here: "
+                         "check the derivative (a wrong f' gives a linear rate |1 − f'(r)/g(r)|) or the function's "
+                         "smoothness")
     if a.label == "cubic" and method == "newton":
         notes.append("Newton is cubic where f''(r) = 0 (c2 = 0)")
     root = float(abs(ref.value)) if isinstance(ref.value, complex) else (

@@ -75,3 +75,18 @@ def test_efficiency_index_is_order_to_the_one_over_evaluations_per_step(method, 
     est = estimate_order(solve("cos(x) - x", method, start=1.0))
     assert est.efficiency == pytest.approx(index, abs=0.02)
     assert est.efficiency_theory == pytest.approx(index, abs=1e-9)
+
+
+def test_a_linear_newton_run_without_a_reference_reads_its_rate_as_a_multiplicity_before_blaming_f_prime():
+    # (x - 1)**3 e^x has a triple root at 1; Newton's rate there is (m - 1)/m = 2/3 (Ostrowski 1966; any text on
+    # multiple roots). The function uses math.exp, so no high-precision reference can confirm the root is simple.
+    import math
+
+    import convdiag
+
+    f = lambda x: (x - 1) ** 3 * math.exp(x)  # noqa: E731
+    fp = lambda x: (3 * (x - 1) ** 2 + (x - 1) ** 3) * math.exp(x)  # noqa: E731
+    est = convdiag.estimate_order(convdiag.solve(f, "newton", start=2.0, fprime=fp))
+    assert est.label == "linear" and est.multiplicity == 3 and est.rate == pytest.approx(2 / 3, abs=0.02)
+    assert any("multiplicity 3, or a wrong f'" in n for n in est.notes)
+    assert not any("at a simple root" in n for n in est.notes)
