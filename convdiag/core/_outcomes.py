@@ -36,12 +36,12 @@ OUTCOMES: tuple[str, ...] = (
 )
 OUTCOME_MEANING: dict[str, str] = {
     "converged": "met the stopping rule (step, residual or exact zero)",
-    "cycle": "stayed bounded without converging (a cycle or erratic wandering)",
+    "cycle": "stayed bounded without converging, repeating a cycle of period 2 or 3",
     "divergence": "the iterates ran away: overflowed, or went beyond 1e4 times the start's scale",
     "flat": "a zero derivative or equal values stopped it, a near-flat spot threw a step far away, or f is "
     "exactly zero over a stretch (underflow) where a bracketing method stopped",
     "domain-error": "the function raised or returned NaN, infinity or a non-real value",
-    "budget": "the budget ran out while the steps were still shrinking",
+    "budget": "the budget ran out: the steps were still shrinking, or the iterates wandered with no pattern",
     "slow": "the budget ran out during linear (slow) convergence",
     "multiple-root": "the budget ran out converging linearly at the rate of a multiple root",
     "stalled": "the steps stopped shrinking at the rounding-noise level (under 1e-12·|x|) without meeting "
@@ -54,9 +54,14 @@ OUTCOME_MEANING: dict[str, str] = {
 O = {o: np.uint8(i) for i, o in enumerate(OUTCOMES)}
 KICK = 1e3  # a step longer than KICK * max(1, |x|) was thrown far (a near-flat spot)
 FAR = 1e4  # iterates beyond FAR * max(1, |x0|) ran away
-#: The rolling record kept per lane: best iterate, its value and |f|; the last three step lengths;
-#: the last three residuals; |x|; whether a step was thrown far; the largest |x|; the start's scale.
-TRACK = ("bx", "bv", "bf", "s1", "s2", "s3", "fa", "fb", "fc", "ax", "kick", "xmax", "scale")
+#: The rolling record kept per lane: best iterate, its value and |f|; the last four step lengths;
+#: the last four residuals; |x|; whether a step was thrown far; the largest |x|; the start's scale.
+TRACK = ("bx", "bv", "bf", "s1", "s2", "s3", "s4", "fa", "fb", "fc", "fd", "ax", "kick", "xmax", "scale")
+#: a cycle of period p repeats step lengths and residuals p steps apart to this relative tolerance: period 2 is
+#: checked on four pairs (two step lengths, two residuals), period 3 on the two the record holds, so more tightly
+#: (common practice, no source: an attracting cycle repeats to many more digits within a few rounds, while a
+#: wandering orbit matches by chance rarely)
+CYCLE_MATCH_2, CYCLE_MATCH_3 = 5e-2, 1e-3
 
 
 def modulus(a: Arr) -> Arr:
@@ -72,7 +77,8 @@ def track_init(v: dict[str, Arr], x0: Arr, dt: Any) -> None:
     """Start the rolling record in ``v`` for lanes starting at ``x0``."""
     n = x0.shape[0]
     v["bx"], v["bv"], v["bf"] = np.full(n, np.nan, dt), np.full(n, np.nan, dt), np.full(n, np.inf)
-    v["s1"], v["s2"], v["s3"], v["fa"], v["fb"], v["fc"], v["ax"] = (np.full(n, np.nan) for _ in range(7))
+    v["s1"], v["s2"], v["s3"], v["s4"], v["fa"], v["fb"], v["fc"], v["fd"], v["ax"] = (np.full(n, np.nan)
+                                                                                    for _ in range(9))
     v["kick"], v["xmax"], v["scale"] = np.zeros(n, bool), np.zeros(n), np.maximum(1.0, modulus(x0))
 
 
@@ -91,8 +97,8 @@ def track_step(v: dict[str, Arr], xp: Arr, xn: Arr, fn: Arr) -> None:
     with np.errstate(all="ignore"):
         s = modulus(xn - xp)
         v["kick"] = v["kick"] | (s > KICK * np.maximum(1.0, modulus(xp)))
-    v["s3"], v["s2"], v["s1"] = v["s2"], v["s1"], s
-    v["fc"], v["fb"] = v["fb"], v["fa"]
+    v["s4"], v["s3"], v["s2"], v["s1"] = v["s3"], v["s2"], v["s1"], s
+    v["fd"], v["fc"], v["fb"] = v["fc"], v["fb"], v["fa"]
     track_start(v, xn, fn)
 
 
@@ -126,8 +132,17 @@ def classify(reason: Arr, t: Mapping[str, Arr], method: str) -> Arr:
         multiple = linear & settled & (np.abs(q1 - q2) <= 0.02 * q1) & (np.abs(m - np.round(m)) < 0.1) & (m > 1.9)
         multiple &= m < 6.1
         far = t["xmax"] > FAR * t["scale"]
+        # period 2 or 3: the step lengths and residuals repeat p steps apart (and the steps do not shrink)
+        def same(u: Arr, w: Arr, tol: float) -> Arr:
+            return np.abs(u - w) <= tol * np.maximum(u, w)
+
+        c2, c3 = CYCLE_MATCH_2, CYCLE_MATCH_3
+        periodic = (same(s1, s3, c2) & same(t["fa"], t["fc"], c2) & same(s2, t["s4"], c2) &
+                    same(t["fb"], t["fd"], c2)) | (same(s1, t["s4"], c3) & same(t["fa"], t["fd"], c3))
+        periodic &= s1 > 1e-12 * np.maximum(1.0, t["ax"])
     budget = r["max-evals"] | r["max-steps"] | r["max-time"]
-    out = np.full(reason.shape, O["cycle"], np.uint8)
+    # bounded without converging: a cycle where a period shows, else the budget ran out while it wandered
+    out = np.where(periodic, O["cycle"], O["budget"]).astype(np.uint8)
     out[budget & shrinking] = O["budget"]
     out[budget & linear] = O["slow"]
     out[budget & multiple] = O["multiple-root"]
