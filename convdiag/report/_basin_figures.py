@@ -242,7 +242,7 @@ class SweepDisplay:
             self.lines_["legend"] = ax.legend(handles=handles, loc="upper left", bbox_to_anchor=(1.01, 1.0),
                                               fontsize=8, frameon=False)
         else:
-            self.lines_["colorbar"] = fig.colorbar(art, ax=ax, label=self.what)
+            self.lines_["colorbar"] = fig.colorbar(art, ax=ax, label={"evals": "evaluations"}.get(self.what, self.what))
         ax.set_title(f"Sweep of {res.method} on {res.label}: {self.what}")
         self.ax_, self.figure_ = ax, fig
         return self
