@@ -18,6 +18,14 @@ noise-floor
     is within 100 × that level. Attainable accuracy in x: level/|f'| (Wilkinson's condition
     number of a simple root, from memory), f' from a central difference over
     max(16 × spread, 1e-4·max(1, |x|)).
+    An iteration that met its tolerance is not sampled, except a recording or sequence whose
+    tolerance was not given (``_detect_stop`` assumes one): it is a noise floor, and the
+    verdict, when the noise is at least 1e4 × the double rounding of f (below; the noise is then
+    not double rounding: single precision's eps is 5e8 times double's, and terms that cancel
+    by a factor 1e4 are already seen by (ii) for an expression) [common practice, no source]
+    and the stalled iterates took a step smaller than the attainable accuracy (the solver
+    believed in digits the noise does not allow). A rounding level that is such noise is
+    reported as a noise floor, not as a limit of double precision (``_detect_probe``).
 rounding level of f (:func:`rounding_level`)
     The largest of (i) Moré and Wild's level at the best iterate (the noise module's estimate
     eps·max(|f|, |x·f'|) when no level is found); (ii) when f is an expression that is a sum
@@ -41,13 +49,16 @@ import numpy as np
 
 from ._detect_advice import _remedy_same
 from ._detect_path import Context, g
-from ._detect_stop import stalled_tail
+from ._detect_stop import SEQ_TOL, stalled_tail, tolerance, tolerance_assumed
 from ._detect_trace import EPS, Trace, trace_converged
 from ._findings import Evidence, Finding
 
-__all__ = ["detect_noise", "noise_explains", "rounding_level"]
+__all__ = ["NOISE_WELL_ABOVE", "detect_noise", "noise_explains", "noise_floor_finding", "rounding_level",
+           "well_above_rounding"]
 
 NOISE_NEAR = 100.0
+#: noise this many times the double rounding of f is not rounding in double precision (module docstring)
+NOISE_WELL_ABOVE = 1e4
 #: the second sample's width 8·h2 must stay within this fraction of |f'/f''| (module docstring)
 CURVATURE_SHARE = 0.1
 
@@ -121,17 +132,31 @@ def noise_explains(t: Trace, ctx: Context) -> bool:
     return False
 
 
+def well_above_rounding(t: Trace, est: Any, x: float) -> bool:
+    """Moré–Wild found noise (status "ok") at least ``NOISE_WELL_ABOVE`` times the double rounding of f at x.
+
+    Double rounding is the larger of the estimate's eps·max(|f|, |x·f'|) and, for an expression
+    that is a sum, eps·Σ|terms| (rounding in terms that cancel; module docstring).
+    """
+    if est is None or est.status != "ok" or not math.isfinite(est.level):
+        return False
+    terms = _terms_rounding(t, x)
+    floor = max(est.rounding, terms if math.isfinite(terms) else 0.0)
+    return bool(est.level >= NOISE_WELL_ABOVE * floor)
+
+
 def detect_noise(t: Trace, ctx: Context) -> Finding | None:
     pr = ctx.prober
-    if t.f is None or t.n < 4 or trace_converged(t) or pr.remaining < 11:
+    if t.f is None or t.n < 4 or pr.remaining < 11:
         return None
+    done = trace_converged(t)
+    if done and not tolerance_assumed(t):
+        return None  # it met the tolerance it was given: a noisy path within it is no finding
     stall = stalled_tail(t)
     if stall is None:
         return None
     k0, spread, _ = stall
-    k = t.best_index()
-    x = float(t.xs[k])
-    tail = t.xs[k0:]
+    x = float(t.xs[t.best_index()])
     est = _noise(t, ctx, x, spread)
     if est is None or est.status != "ok":
         return None
@@ -140,37 +165,68 @@ def detect_noise(t: Trace, ctx: Context) -> Finding | None:
     if not fmed <= NOISE_NEAR * est.level:
         ctx.notes.append(f"f carries noise of about {est.level:.2g}, but the stalled |f| ({fmed:.2g}) is far above it")
         return None
+    if done and not well_above_rounding(t, est, x):
+        return None  # rounding-sized noise at a stop that met the assumed tolerance: nothing to change
     D = max(16 * spread, 1e-4 * max(1.0, abs(x)))
     try:
         slope = (pr(x + D) - pr(x - D)) / (2 * D)
     except Exception:  # noqa: BLE001 - budget
         slope = math.nan
+    if done:
+        from ._noise import attainable_accuracy
+
+        acc = attainable_accuracy(est.level, slope) if math.isfinite(slope) else math.nan
+        moves = np.abs(np.diff(t.xs[k0:]))
+        moves = moves[moves > 0]
+        if not (len(moves) and math.isfinite(acc) and float(np.min(moves)) < acc):
+            return None  # its steps stayed coarser than the noise: the stop is not at the floor
+    return noise_floor_finding(t, ctx, est, x, slope, f"central difference over ±{D:.2g}", k0, spread)
+
+
+def noise_floor_finding(t: Trace, ctx: Context, est: Any, x: float, slope: float, slope_how: str, k0: int,
+                        spread: float) -> Finding:
+    """The noise-floor finding: the noise in f, the accuracy in x it allows, and tolerances it can meet."""
     from ._noise import attainable_accuracy
 
+    tail = t.xs[k0:]
+    ftail = np.abs(t.fs[k0:]) if t.fs is not None else np.zeros(0)
+    fmed = float(np.median(ftail)) if len(ftail) else math.nan
     acc = attainable_accuracy(est.level, slope) if math.isfinite(slope) else math.nan
     ctx.cache["attainable"] = acc
     xtol = 3 * acc if math.isfinite(acc) else None
-    remedy = _remedy_same(t, xtol=xtol, ftol=3 * est.level,
+    remedy = _remedy_same(t, ctx, xtol=xtol, ftol=3 * est.level,
                           note="tolerances the noise allows: 3 × the attainable accuracy in x, 3 × the noise in f")
     ev: list[Evidence] = [
         ("noise level in f", est.level, f"Moré–Wild estimate (standard deviation) at x = {g(x, 10)}"),
         ("times rounding", est.above_rounding, f"rounding level {est.rounding:.2g}"),
         ("sample spacing", est.h, f"{est.evaluations} evaluations, difference order {est.order}"),
-        ("slope f'", slope, f"central difference over ±{D:.2g}"),
+        ("slope f'", slope, slope_how),
         ("attainable accuracy in x", acc, "noise/|f'|: no method resolves the root better"),
         ("stalled iterates", (float(np.min(tail)), float(np.max(tail))),
          f"smallest and largest of the last {len(tail)} iterates"),
         ("spread of the stalled iterates", spread, "largest − smallest"),
         ("median |f| there", fmed, "the residual the noise allows"),
     ]
+    assumed = ""
+    if tolerance_assumed(t):
+        tol, how = tolerance(t, x)
+        ev.append(("tolerance", tol, how))
+        met = trace_converged(t)
+        assumed = (f" No tolerance was given, so the diagnosis assumed {g(tol, 3)} ({SEQ_TOL:g}·max(1, |x|))"
+                   + (f"; the iteration met it, but its last steps are finer than the noise allows, so its result is "
+                      f"good to about {g(acc, 3)} only." if met else "."))
+    lo_prec = well_above_rounding(t, est, x)
     return Finding(
         "noise-floor",
         f"f carries computational noise of about {est.level:.2g} ({est.above_rounding:.3g} times rounding), so the "
-        f"iterates can only wander within about {g(acc, 3)} of the root; they stalled there.",
+        f"iterates can only wander within about {g(acc, 3)} of the root; they stalled there." + assumed,
         tuple(ev),
         f"Ask for no more than the noise allows: xtol ≥ {g(3 * acc, 3)} or ftol ≥ {g(3 * est.level, 3)}; or make f "
-        "less noisy (tighten the tolerance of the inner solver, quadrature or series inside it). Remedy: "
-        + remedy.describe() + ".",
+        "less noisy: tighten the tolerance of the inner solver, quadrature or series inside it, or compute the model "
+        "in a higher working precision (float64 where it uses float32)"
+        + (" — more digits in the solver (solve(..., digits=30)) cannot help, because f rounds in its own "
+           "arithmetic" if lo_prec else "")
+        + ". Remedy: " + remedy.describe() + ".",
         remedy, tuple(range(k0, t.n)), tag=f"level {est.level:.2g}")
 
 

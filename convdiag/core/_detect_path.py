@@ -20,7 +20,10 @@ divergence
     and |x_L| ≥ 10·max(|x_0|, |x_1 − x_0|)) [common practice, no source].
 domain-error
     Any evaluation that raised or returned NaN or a non-real value; the edge of
-    the domain is bisected between the last defined and the first undefined point.
+    the domain is bisected between the first undefined point and the nearest defined
+    one: an iterate, else a point the probes found defined (a bracket searched for the
+    remedy), else the first of up to 8 probes stepping out from the failed point by
+    max(1, |x|)/2·4^j on either side [common practice, no source].
 """
 
 from __future__ import annotations
@@ -46,6 +49,8 @@ DRIFT_MIN_STEPS = 6
 DRIFT_RATIO = 0.95
 DRIFT_RATIO_BLIND = 0.98
 DRIFT_DISTANCE = 10.0
+#: probes stepping out from a failed start to find where f is defined (module docstring)
+EDGE_LOOKS = 8
 
 
 def g(v: Any, digits: int = 6) -> str:
@@ -238,6 +243,35 @@ def detect_divergence(t: Trace, ctx: Context) -> Finding | None:
                    remedy, iters, tag="false convergence" if false_conv else "")
 
 
+def _defined_points(ctx: Context, remedy: Remedy, x_u: float) -> list[float]:
+    """Points where f is defined, for a path on which no evaluation succeeded.
+
+    First what the probes already saw (the ends of a bracket found for the remedy, any finite probe
+    value); else up to ``EDGE_LOOKS`` probes stepping out from the failed point on both sides,
+    d·4^j with d = max(1, |x_u|)/2, until f is defined at one of them.
+    """
+    seen = [x for x, v in ctx.prober.points if math.isfinite(v)]
+    for pair in (remedy.bracket, remedy.start):
+        if pair is not None:
+            seen.extend(float(v) for v in pair if math.isfinite(float(v)))
+    if seen:
+        return seen
+    pr = ctx.prober
+    d = max(1.0, abs(x_u)) / 2
+    for j in range(EDGE_LOOKS // 2):
+        for s in (1.0, -1.0):
+            x = x_u + s * d * 4.0**j
+            if pr.remaining < 9:  # keep a few for the bisection
+                return []
+            try:
+                v = pr(x)
+            except Exception:  # noqa: BLE001 - budget
+                return []
+            if math.isfinite(v):
+                return [x]
+    return []
+
+
 def detect_domain_error(t: Trace, ctx: Context) -> Finding | None:
     from ._signchange import locate_edge
 
@@ -253,19 +287,26 @@ def detect_domain_error(t: Trace, ctx: Context) -> Finding | None:
     ev: list[Evidence] = [("failed evaluations", len(fails), "raised, NaN or not a real number"),
                           ("first failure at x", x_u, (note if note.startswith(status) else f"{status}: {note}")[:160])]
     advice_where = ""
+    what = t.method or "the solver"
+    x0 = _start(t)
+    why = "a bracket inside the domain keeps every iterate where f is defined"
+    remedy = None
+    pr = ctx.prober
+    if not good and math.isfinite(x_u):  # no evaluation along the path succeeded: the bracket search shows where
+        remedy = ctx.bracket_remedy(t, x0, why)  # f is defined; else a few probes stepping out
+        good = _defined_points(ctx, remedy, x_u)
     if good and math.isfinite(x_u):
         x_d = min(good, key=lambda v: abs(v - x_u))
         ev.append(("nearest defined point", x_d, "f evaluated there without trouble"))
-        pr = ctx.prober
         if pr.available and pr.remaining >= 8:
             edge = locate_edge(pr, x_d, x_u, xtol=1e-9 * max(1.0, abs(x_d)), max_evals=min(40, pr.remaining))
             side = "below" if edge.undefined_side == "left" else "above"
             ev.append(("domain edge", (edge.x_defined, edge.x_undefined),
-                       f"f is defined at the first and not at the second ({edge.evaluations} probes)"))
+                       f"f is defined at the first and not at the second ({edge.evaluations} probes"
+                       + ("" if edge.complete else "; the probe budget ended the bisection") + ")"))
             advice_where = f" f is not defined just {side} x ≈ {g(edge.x_defined, 10)}."
-    what = t.method or "the solver"
-    x0 = _start(t)
-    remedy = ctx.bracket_remedy(t, x0, "a bracket inside the domain keeps every iterate where f is defined")
+    if remedy is None:
+        remedy = ctx.bracket_remedy(t, x0, why)
     return Finding(
         "domain-error",
         f"{what} evaluated f where it is not defined: at x = {g(x_u, 10)} f {note or status}."[:300]

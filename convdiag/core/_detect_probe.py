@@ -15,7 +15,10 @@ unattainable-tolerance
     level, eps·Σ|terms| for an expression that is a sum, and the median |f| over stalled
     iterates that straddle the root (a run caught in a cycle at the rounding level of f
     keeps taking steps |f|/|f'| of that size). A high-precision run compares with its own
-    spacing, 10^-digits relative.
+    spacing, 10^-digits relative. When that level is Moré and Wild's noise at least 1e4 times
+    the double rounding of f (``_detect_noise.well_above_rounding``), the finding is a noise
+    floor instead: f computes in a lower precision or carries an inner solver's error, and
+    more digits in the solver cannot help.
 pole
     The bracket history is judged by ``_signchange.judge_refinement`` (|f| ~ width^q:
     root q ≥ 0.3, pole q ≤ −0.3, jump at few-ulp width): first over the whole history
@@ -35,8 +38,16 @@ import math
 import numpy as np
 
 from ._detect_advice import _remedy_same
-from ._detect_noise import NOISE_NEAR, detect_noise, noise_explains, rounding_level
+from ._detect_noise import (
+    NOISE_NEAR,
+    detect_noise,
+    noise_explains,
+    noise_floor_finding,
+    rounding_level,
+    well_above_rounding,
+)
 from ._detect_path import Context, g
+from ._detect_stop import stalled_tail
 from ._detect_trace import EPS, Trace, trace_converged
 from ._findings import Evidence, Finding
 
@@ -70,6 +81,7 @@ def detect_unattainable(t: Trace, ctx: Context) -> Finding | None:
     needs_level = (t.ftol is not None and t.ftol > 0) or (asked is not None and not trace_converged(t))
     how = ""
     stalled_step = math.nan
+    slope = h = math.nan
     room = ctx.prober.remaining >= (2 if "noise" in ctx.cache else 11)  # the slope, and a noise sample if none yet
     if needs_level and t.f is not None and room and not t.digits:
         level, base, how, step = rounding_level(t, ctx, x)
@@ -94,6 +106,13 @@ def detect_unattainable(t: Trace, ctx: Context) -> Finding | None:
                 why.append(f"the step tolerance {asked:.3g} is below the accuracy rounding allows ({attain:.3g})")
     if not why:
         return None
+    est = ctx.cache.get("noise")
+    if math.isfinite(level) and well_above_rounding(t, est, x):
+        # the floor is noise far above double rounding (f computes in lower precision, or an inner solver is
+        # loose): more digits in the solver cannot help, a looser tolerance or a less noisy f can
+        stall = stalled_tail(t)
+        k0, spread = stall[:2] if stall is not None else (max(0, t.n - 4), float(np.ptp(t.xs[max(0, t.n - 4):])))
+        return noise_floor_finding(t, ctx, est, x, slope, f"central difference over ±{h:.2g}", k0, spread)
     ev.append(("requested xtol + rtol·|x|", asked if asked is not None else math.nan, ""))
     if t.ftol:
         ev.append(("requested ftol", t.ftol, ""))
@@ -107,7 +126,7 @@ def detect_unattainable(t: Trace, ctx: Context) -> Finding | None:
     ev.append(("attainable accuracy in x", attain, "the largest of the gap, rounding level/|f'|"
                + (" and the smallest stalled step" if math.isfinite(stalled_step) else "")))
     new_xtol = 2 * attain
-    remedy = _remedy_same(t, xtol=new_xtol, ftol=(4 * level if t.ftol and math.isfinite(level) else None),
+    remedy = _remedy_same(t, ctx, xtol=new_xtol, ftol=(4 * level if t.ftol and math.isfinite(level) else None),
                           note="tolerances double precision can meet")
     return Finding(
         "unattainable-tolerance",

@@ -1,21 +1,12 @@
-"""Detectors that read the rate of convergence: multiple root, wrong derivative, slow, budget.
+"""Detectors that read the rate of convergence: slow, budget.
+
+What a linear rate says about the root (a multiple root, a wrong derivative) is in
+``_detect_multiplicity`` (re-exported here).
 
 They rest on the observed order of convergence (:func:`~convdiag.core._order.estimate_order`), and
 only on a window where a rate may be read (``_detect_order.rate_order``: no error growing
 2-fold inside the window of an open method). Rules and thresholds (basis in brackets):
 
-multiple-root
-    Linear convergence (not at a measured noise floor), f' at the best iterate below
-    0.1 × f' at the start (central differences over 1e-3 of the distance travelled; f'
-    vanishes at a multiple root), and a multiplicity m ≥ 2 from (in this order) the high-precision
-    reference root (u = f/f' and the first nonvanishing derivative), the method's rate
-    law at a root of multiplicity m (Newton (m−1)/m, Halley (m−1)/(m+1), secant the root
-    of t^m + t^(m−1) = 1; shared/REFERENCES.md §1), or the slope of log|f_k| against log
-    of the step sizes (|f| ∝ e^m; within 0.2 of an integer).
-wrong-derivative (from the rate)
-    A derivative method (Newton, Halley, newton-m) converging linearly at a root the
-    reference says is simple: Newton with a slope g ≠ f' has rate |1 − f'(r)/g(r)|
-    (REFERENCES §1), so g ≈ f'/(1 ± rate).
 slow
     Linear (or sublinear) convergence with a rate per evaluation above 0.6: bisection
     gains a factor 2 per evaluation (rate 0.5); at 0.6 a method needs a third more
@@ -43,21 +34,21 @@ from typing import Any
 import numpy as np
 
 from ._detect_advice import _remedy_same
+from ._detect_multiplicity import RATE_TAG, detect_multiple_root, detect_rate_derivative
 from ._detect_noise import noise_explains
 from ._detect_order import rate_order
 from ._detect_path import Context, g
 from ._detect_trace import Trace, _shrinking, tolerance, trace_converged
 from ._findings import Evidence, Finding, Remedy
 
-__all__ = ["detect_budget", "detect_multiple_root", "detect_rate_derivative", "detect_slow", "evals_needed"]
+__all__ = ["RATE_TAG", "detect_budget", "detect_multiple_root", "detect_rate_derivative", "detect_slow",
+           "evals_needed"]
 
 SLOW_RATE = 0.6
-FLAT_LIMIT = 0.1
 #: residual-only sequences: converged when |f| fell by this factor (no tolerance given)
 RESIDUAL_DROP = 1e-12
 #: steps assumed when a budget stopped a run before it had 3 iterates [common practice, no source]
 GUESS_STEPS = 10
-_DERIVATIVE_METHODS = {"newton", "halley", "newton-m"}
 
 
 def _run_errors(est: Any) -> tuple[float, ...]:
@@ -132,110 +123,6 @@ def evals_needed(t: Trace, est: Any) -> tuple[int | None, str]:
     return math.ceil((steps + 2) * d), how + " (+1 step for the stopping test, +1 to spare)"
 
 
-def _residual_multiplicity(t: Trace, est: Any) -> tuple[int | None, float]:
-    """m from |f_k| ∝ e_k^m over the linear window (steps stand in for errors)."""
-    if t.fs is None or est is None or est.window is None or t.n < 6:
-        return None, math.nan
-    lo, hi = est.window
-    steps = np.abs(np.diff(t.xs))
-    ks = np.arange(max(lo, 0), min(hi + 1, len(steps)))
-    if len(ks) < 3:
-        return None, math.nan
-    with np.errstate(all="ignore"):
-        le, lf = np.log10(steps[ks]), np.log10(np.abs(t.fs[ks]))
-    ok = np.isfinite(le) & np.isfinite(lf)
-    if np.sum(ok) < 3 or np.ptp(le[ok]) < 0.5:
-        return None, math.nan
-    slope = float(np.polyfit(le[ok], lf[ok], 1)[0])
-    m = round(slope)
-    return (m if abs(slope - m) <= 0.2 else None), slope
-
-
-def detect_multiple_root(t: Trace, ctx: Context) -> Finding | None:
-    est = rate_order(t, ctx)
-    if est is None or est.label != "linear" or est.rate is None:
-        return None
-    if ctx.cache.get("derivative", {}).get("bad"):
-        return None
-    m_res, slope = _residual_multiplicity(t, est)
-    hp = est.reference == "high-precision root"
-    m = est.multiplicity if est.multiplicity is not None else m_res
-    if hp and est.multiplicity == 1:
-        return None
-    if m is None or m < 2 or noise_explains(t, ctx):
-        return None
-    ev: list[Evidence] = [("linear rate", est.rate, f"over e_{est.window[0]}…e_{est.window[1]}"
-                           if est.window else "")]
-    if est.multiplicity_note:
-        ev.append(("multiplicity", m, est.multiplicity_note.split("; ")[0]))
-        hp_note = next((n for n in est.multiplicity_note.split("; ") if n.startswith("reference root")), "")
-        if hp_note:
-            ev.append(("high-precision check", m, hp_note))
-    else:
-        ev.append(("multiplicity", m, "from |f| ∝ e^m"))
-    if math.isfinite(slope):
-        ev.append(("|f| ∝ step^q", slope, "q = m at a root of multiplicity m"))
-    pr = ctx.prober
-    x = float(t.xs[t.best_index()])
-    if pr.available and pr.remaining >= 4 and t.n:
-        x0 = float(t.xs[0])
-        h = max(1e-3 * abs(x0 - x), 1e-8 * max(1.0, abs(x)))
-        try:
-            d_l = (pr(x + h) - pr(x - h)) / (2 * h)
-            d_0 = (pr(x0 + h) - pr(x0 - h)) / (2 * h)
-        except Exception:  # noqa: BLE001 - budget
-            d_l = d_0 = math.nan
-        if math.isfinite(d_l) and math.isfinite(d_0):
-            if abs(d_l) > FLAT_LIMIT * abs(d_0):
-                ctx.notes.append(f"a linear rate suggested multiplicity {m}, but f' at the best iterate ({d_l:.3g}) "
-                                 f"is not small against f' at the start ({d_0:.3g}): not a multiple root")
-                return None
-            ev.append(("f' at the best iterate", d_l, f"f' at the start: {g(d_0, 3)}; f' vanishes at a multiple root"))
-    x0 = t.starts[0] if t.starts else float(t.xs[0])
-    remedy = Remedy("newton-m", start=(x0,), multiplicity=int(m),
-                    note=f"x − {m}·f/f' is quadratic at a root of multiplicity {m}")
-    what = t.method or "the solver"
-    return Finding(
-        "multiple-root",
-        f"The root near {g(x, 10)} has multiplicity {m}: {what} converges only linearly there (rate {est.rate:.3g}).",
-        tuple(ev),
-        f"Use the modified Newton step x − {m}·f/f' (method 'newton-m' with multiplicity={m}) or Newton on f/f' "
-        "(method 'newton-ratio', which needs f'' but not m); both are quadratic again. Expect about 1/"
-        f"{m} of the digits at most: rounding in f hides a multiple root. Remedy: " + remedy.describe() + ".",
-        remedy, tuple(range(est.window[0], min(est.window[1] + 2, t.n))) if est.window else (), tag=f"m = {m}")
-
-
-def detect_rate_derivative(t: Trace, ctx: Context) -> Finding | None:
-    est = rate_order(t, ctx)
-    if est is None or est.label != "linear" or est.rate is None or t.method not in _DERIVATIVE_METHODS:
-        return None
-    if "derivative" in ctx.cache:  # your derivative was checked against f and agreed
-        if not ctx.cache["derivative"]["bad"] and not noise_explains(t, ctx):
-            ctx.notes.append(f"{t.method} is linear at a simple root although your derivative agrees with the slope "
-                             "of f: f may not be smooth at the root")
-        return None
-    m_res, slope = _residual_multiplicity(t, est)
-    simple = (est.reference == "high-precision root" and est.multiplicity == 1) or (
-        est.reference != "high-precision root" and m_res == 1)
-    if not simple or t.derivative_source not in (None, "user") or noise_explains(t, ctx):
-        return None
-    rho = est.rate
-    x0 = t.starts[0] if t.starts else float(t.xs[0])
-    remedy = Remedy(t.method or "newton", start=(x0,), drop_fprime=True,
-                    note="the same method with a derivative convdiag computes from f")
-    return Finding(
-        "wrong-derivative",
-        f"{t.method} converges linearly (rate {rho:.3g}) at a simple root, where it should be order "
-        f"{t.nominal_order or 2:g}: the slope it used is off by a factor of about {1 / (1 - rho):.3g} or "
-        f"{1 / (1 + rho):.3g}.",
-        (("linear rate", rho, "Newton with slope g ≠ f' has rate |1 − f'(r)/g(r)|"),
-         ("multiplicity", 1, "high-precision reference root" if est.reference == "high-precision root"
-          else f"|f| ∝ step^{slope:.2f}")),
-        "Check the derivative (pass f itself so it can be compared), or leave it out. Remedy: "
-        + remedy.describe() + ".",
-        remedy, (), tag=f"rate {rho:.3g}")
-
-
 def _fixed_end(t: Trace) -> tuple[float, int] | None:
     if not t.brackets or len(t.brackets) < 4:
         return None
@@ -293,7 +180,7 @@ def detect_slow(t: Trace, ctx: Context) -> Finding | None:
     if t.total_evals is not None:
         ev.append(("evaluations used", t.total_evals, ""))
     if t.brackets is not None:
-        remedy = _remedy_same(t)
+        remedy = _remedy_same(t, ctx)
         remedy = Remedy("hybrid", bracket=remedy.bracket, note="superlinear and keeps the bracket")
     else:
         near = t.starts[0] if t.starts else (float(t.xs[0]) if t.n else None)
@@ -338,7 +225,7 @@ def detect_budget(t: Trace, ctx: Context) -> Finding | None:
     ev.append(("evaluations still needed", need, how))
     if t.seconds_per_eval:
         ev.append(("time still needed", need * t.seconds_per_eval, "seconds, at the mean time per evaluation"))
-    remedy = _remedy_same(t, max_evals=used + need, note="the same run with a budget that covers the estimate")
+    remedy = _remedy_same(t, ctx, max_evals=used + need, note="the same run with a budget that covers the estimate")
     if t.brackets is not None and t.method is not None:
         remedy = Remedy(t.method, bracket=remedy.bracket, max_evals=used + need, note=remedy.note)
     what = "The budget ran out after" if t.kind == "run" else "The iteration stopped after"

@@ -130,8 +130,8 @@ def check_derivative(t: Trace, ctx: Context) -> Finding | None:
                     drop_fprime=True, note="the same method with a derivative convdiag computes from f")
     return Finding(
         "wrong-derivative",
-        f"The derivative you supplied disagrees with the slope of f: at x = {g(x, 8)} it gives {g(gv, 6)} where f "
-        f"rises at {g(d, 6)} (ratio {ratio:.4g}).{rate_note}",
+        f"The derivative you supplied disagrees with the slope of f: at x = {g(x, 8)} it gives {g(gv, 6)} where "
+        f"{_slope_words(d)} (ratio {ratio:.4g}).{rate_note}",
         tuple(ev),
         "Fix the derivative function (compare it term by term with f), or leave it out: convdiag then differentiates "
         "f itself. Remedy: " + remedy.describe() + ".",
@@ -140,3 +140,12 @@ def check_derivative(t: Trace, ctx: Context) -> Finding | None:
 
 def _rel(row: tuple[float, float, float, float, str]) -> float:
     return abs(row[1] - row[2]) / max(abs(row[1]), abs(row[2]), 1e-300)
+
+
+def _slope_words(d: float) -> str:
+    """The slope in words that match its sign: 'f rises at 2', 'f falls at 195.6 (slope −195.6)'."""
+    if d > 0:
+        return f"f rises at {g(d, 6)}"
+    if d < 0:
+        return f"f falls at {g(-d, 6)} (slope {g(d, 6)})"
+    return "f is flat (slope 0)"

@@ -16,7 +16,10 @@ iterates. Rules for reading it (each states its threshold):
   which the solver moved at least 100 times as far, is a difference-derivative
   probe, not an iterate (forward differences use steps near √eps ≈ 1.5e-8
   relative; an iterate of a converging solver is followed by a smaller step);
-- derivative rows (``df``) at an iterate give the slope the step used;
+- derivative rows (``df``) at an iterate give the slope the step used; a recording with them at
+  every iterate but the last is an open method with a derivative (Newton; Halley with ``d2f`` rows),
+  read before the bracket check: Newton's iterates may straddle the root and stay inside the first
+  two by chance;
 - the diagnosis calls the recorded function as the solver did: with the extra
   positional ``args`` of the solver's latest call (``Recorder.call_args``), so that
   ``scipy.optimize.newton(rf, x0, args=(Re,))`` is probed as f(x, Re).
@@ -244,11 +247,13 @@ def _from_log(log: Any, t: Trace) -> None:
     has_df = bool(der) and all(float(x) in der for x in t.xs[:-1])
     has_d2f = bool(np.any(kinds == "d2f"))
     if t.method is None and len(t.xs) >= 3:
-        br = _bracket_history(t.xs, t.fs)
-        if br is not None:
-            t.brackets, t.method_inferred = br, True
-        elif has_df:
+        # derivative rows at the iterates mark an open method with a derivative, even when its first points
+        # happen to straddle the root and every later one falls inside (Newton on Colebrook's equation)
+        br = None if has_df else _bracket_history(t.xs, t.fs)
+        if has_df:
             t.method, t.method_inferred = ("halley" if has_d2f else "newton"), True
+        elif br is not None:
+            t.brackets, t.method_inferred = br, True
     elif t.method in _BRACKETING:
         t.brackets = _bracket_history(t.xs, t.fs)
     if t.brackets is None:

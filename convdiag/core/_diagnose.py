@@ -22,8 +22,8 @@ flat                     a near-zero slope threw the iterate away      ``_detect
                          point, or f ≡ 0 on a stretch
 pole                     the sign change is a pole or jump, not a root ``_detect_probe``
 wrong-derivative         your f' disagrees with the slope of f, or a   ``_detect_slope``,
-                         derivative method is linear at a simple root  ``_detect_rate``
-multiple-root            linear rate (m−1)/m and f' → 0: multiplicity  ``_detect_rate``
+                         derivative method is linear at a simple root  ``_detect_multiplicity``
+multiple-root            linear rate (m−1)/m and f' → 0: multiplicity  ``_detect_multiplicity``
 noise-floor              f is noisy; the iterates wander within        ``_detect_noise``
                          noise/|f'| of the root
 unattainable-tolerance   the tolerance is below what doubles allow     ``_detect_probe``
@@ -51,7 +51,12 @@ symptom), and "converged" last. When the run converged, findings that only
 describe its path (a long step from a small slope, a failed evaluation it got
 past, a stop at the noise floor within its own tolerance) do not override
 "converged". The same holds for repeated flat-tangent throws that the run
-recovered from.
+recovered from, and for a wrong derivative read from the rate alone (a note on a
+run that converged). A recording or sequence diagnosed without its tolerance met
+only an assumed one (``_detect_stop``): there a noise floor does override
+"converged" (its finding says the tolerance was assumed). Once the tolerance is
+found out of reach (noise floor, unattainable tolerance), no budget finding is
+added: more evaluations cannot reach it.
 
 An exponential-like crawl (``_detect_crawl``) is reported as "slow" and takes the
 place of the generic rate findings (slow, budget) and of a single long throw just
@@ -73,6 +78,7 @@ from typing import Any
 
 from ..errors import ParameterError
 from . import _modified  # noqa: F401  (registers newton-m and newton-ratio, the multiple-root cures)
+from ._detect_multiplicity import RATE_TAG
 from ._findings import Finding, Remedy
 from ._show import Showable
 
@@ -93,7 +99,8 @@ PRECEDENCE = (
     "converged",
 )
 #: (kind, tag) pairs that do not override a run that converged by its own rule
-_PATH_ONLY = {("flat", "small slope"), ("flat", "repeated throws"), ("domain-error", None), ("noise-floor", None)}
+_PATH_ONLY = {("flat", "small slope"), ("flat", "repeated throws"), ("domain-error", None), ("noise-floor", None),
+              ("wrong-derivative", RATE_TAG)}
 
 
 @dataclass(frozen=True, repr=False)
@@ -272,6 +279,7 @@ def diagnose(
     from ._detect_probe import detect_flat_zero, detect_noise, detect_pole, detect_unattainable
     from ._detect_rate import detect_budget, detect_multiple_root, detect_rate_derivative, detect_slow
     from ._detect_slope import check_derivative
+    from ._detect_stop import tolerance_assumed
     from ._detect_trace import Prober, build_trace, trace_converged
 
     _check(source, xtol, ftol, method, root, max_probe_evals, bracket)
@@ -325,13 +333,13 @@ def diagnose(
             run(detect_unattainable)
         if crawl is None and not any(x.kind in ("multiple-root", "wrong-derivative") for x in found):
             run(detect_slow)
-        if crawl is None and not any(x.kind == "noise-floor" for x in found):
-            run(detect_budget)
+        if crawl is None and not any(x.kind in ("noise-floor", "unattainable-tolerance") for x in found):
+            run(detect_budget)  # a tolerance out of reach is not reached by more evaluations
     conv = run(detect_converged) if escaped is None and pole is None else None
     if not found:
         found.append(_unexplained(t))
     converged = conv is not None and trace_converged(t)
-    verdict = _verdict(found, converged)
+    verdict = _verdict(found, converged, overrides=("noise-floor",) if tolerance_assumed(t) else ())
     ordered = sorted(found, key=lambda x: (x.kind != verdict, PRECEDENCE.index(x.kind)))
     expr = getattr(t.problem, "expression", None) if t.problem is not None else None
     return Diagnosis(
@@ -361,12 +369,12 @@ def _scalar_params(params: Any) -> tuple[tuple[str, float], ...]:
     return tuple(out)
 
 
-def _verdict(found: list[Finding], converged: bool) -> str:
+def _verdict(found: list[Finding], converged: bool, overrides: tuple[str, ...] = ()) -> str:
     for kind in PRECEDENCE:
         for x in found:
             if x.kind != kind:
                 continue
-            if converged and ((x.kind, x.tag) in _PATH_ONLY or (x.kind, None) in _PATH_ONLY):
+            if converged and x.kind not in overrides and ((x.kind, x.tag) in _PATH_ONLY or (x.kind, None) in _PATH_ONLY):
                 continue
             return kind
     return "converged" if converged else found[0].kind

@@ -134,7 +134,8 @@ def classify(reason: Arr, t: Mapping[str, Arr], method: str) -> Arr:
         far = t["xmax"] > FAR * t["scale"]
         # period 2 or 3: the step lengths and residuals repeat p steps apart (and the steps do not shrink)
         def same(u: Arr, w: Arr, tol: float) -> Arr:
-            return np.abs(u - w) <= tol * np.maximum(u, w)
+            out: Arr = np.abs(u - w) <= tol * np.maximum(u, w)
+            return out
 
         c2, c3 = CYCLE_MATCH_2, CYCLE_MATCH_3
         periodic = (same(s1, s3, c2) & same(t["fa"], t["fc"], c2) & same(s2, t["s4"], c2) &

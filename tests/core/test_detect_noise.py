@@ -65,3 +65,94 @@ def test_the_second_spacing_is_not_used_where_the_curvature_of_f_dominates():
 def test_the_length_scale_of_a_parabola_is_x():
     est = estimate_noise(lambda x: x * x, 3.0)  # f'/f'' = 2x/2 = x
     assert _length_scale(est) == pytest.approx(3.0, rel=1e-4)
+
+
+def hashed_noise(x):
+    """Deterministic pseudo-noise in [−1, 1] from the 64 bits of x (numpy's PCG64 seeded with them)."""
+    import struct
+
+    import numpy as np
+
+    seed = struct.unpack("<Q", struct.pack("<d", float(x)))[0]
+    return float(np.random.default_rng(seed).uniform(-1.0, 1.0))
+
+
+def noisy_square(x):
+    """x² − 2 plus noise of amplitude 1e-8: the root √2 is resolvable to about 1e-8/|f'(√2)| = 1e-8/(2√2)."""
+    return x * x - 2 + 1e-8 * hashed_noise(x)
+
+
+def scipy_recording(solver, *args, **kwargs):
+    import warnings
+
+    from convdiag import record
+
+    rf = record(noisy_square)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        try:
+            solver(rf, *args, **kwargs)
+            failed = False
+        except RuntimeError:
+            failed = True
+    return rf, failed
+
+
+def test_a_scipy_newton_recording_that_failed_in_the_noise_is_a_noise_floor_not_converged():
+    so = pytest.importorskip("scipy.optimize")
+    rf, failed = scipy_recording(so.newton, 1.0, fprime=lambda x: 2 * x, tol=1e-15, maxiter=40)
+    assert failed  # scipy: "Failed to converge after 40 iterations"
+    d = diagnose(rf)
+    assert d.verdict == "noise-floor", (d, d.kinds)
+    nf = d.primary
+    assert "No tolerance was given" in nf.summary and nf.value("tolerance") == pytest.approx(1e-6 * math.sqrt(2))
+    sigma = 1e-8 / math.sqrt(3)  # standard deviation of uniform noise on [−A, A]
+    assert sigma / 3 <= nf.value("noise level in f") <= 3 * sigma  # Moré & Wild, within a factor of a few
+    assert nf.value("attainable accuracy in x") == pytest.approx(nf.value("noise level in f") / (2 * math.sqrt(2)),
+                                                                rel=0.05)
+
+
+def test_a_scipy_brentq_recording_that_met_its_tolerance_in_the_noise_says_so():
+    # brentq keeps a sign change, so it "converges" to xtol = 1e-15 while the noise hides the root within about
+    # 1e-8/(2√2): with no tolerance given, the noise floor is the verdict and the text says it was assumed
+    so = pytest.importorskip("scipy.optimize")
+    rf, failed = scipy_recording(so.brentq, 0.0, 2.0, xtol=1e-15)
+    assert not failed
+    d = diagnose(rf)
+    assert d.verdict == "noise-floor" and "converged" in d.kinds, (d, d.kinds)
+    assert "No tolerance was given" in d.primary.summary and "met it" in d.primary.summary
+    acc = d.primary.value("attainable accuracy in x")
+    assert 1e-10 < acc < 1e-8 and abs(d.root - math.sqrt(2)) <= 3 * acc
+
+
+def test_a_smooth_recording_without_a_tolerance_stays_converged():
+    so = pytest.importorskip("scipy.optimize")
+    from convdiag import record
+
+    for solve_it in (lambda rf: so.brentq(rf, 0.0, 2.0, xtol=1e-15), lambda rf: so.newton(rf, 1.0, tol=1e-15)):
+        rf = record(lambda x: x * x - 2)
+        solve_it(rf)
+        assert diagnose(rf).kinds == ("converged",)
+
+
+def test_a_short_stall_of_a_solver_that_gave_up_counts_as_stalled():
+    # scipy's secant on Colebrook–White computed in float32 (REFERENCES §5) stops after 8 points when two values
+    # of f are equal: the last 4 lie within 2e-8 while |f| sits at float32's spacing near 7.35, 2^-21 (numpy)
+    import numpy as np
+
+    so = pytest.importorskip("scipy.optimize")
+    from convdiag import record
+
+    def col32(f):
+        f = np.float32(f)
+        return float(np.float32(1) / np.sqrt(f) + np.float32(2) * np.log10(
+            np.float32(1e-4) / np.float32(3.7) + np.float32(2.51) / (np.float32(1e5) * np.sqrt(f))))
+
+    rf = record(col32)
+    with pytest.raises(RuntimeError, match="Tolerance of"):
+        so.newton(rf, 0.02, tol=1e-12, maxiter=50)
+    t = build_trace(rf)
+    k0, spread, _ = stalled_tail(t)
+    assert t.n - k0 == 4 and spread < 1e-7 and np.all(np.abs(t.fs[k0 + 1:]) <= 2.0**-21)
+    d = diagnose(rf)
+    assert d.verdict == "noise-floor" and "No tolerance was given" in d.primary.summary

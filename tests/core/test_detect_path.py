@@ -81,3 +81,25 @@ def test_a_function_that_raises_is_a_domain_error_with_its_edge():
     assert hi < 0 <= lo and lo - hi <= 1e-8 * 20
     cured = d.remedy.solve(f)
     assert cured.converged and cured.root == pytest.approx(4.0, rel=1e-12)
+
+
+@pytest.mark.parametrize("budget, width", [(60, 1e-6), (100, 1e-8)])
+def test_the_domain_edge_is_found_when_not_one_evaluation_of_the_path_succeeded(budget, width):
+    # √x − 1 from −3: the very first evaluation is NaN (math: √x is real for x ≥ 0 only), so the nearest defined
+    # point comes from the probes; the bisection towards −3 must close on 0 within the probe budget
+    d = diagnose(solve("sqrt(x) - 1", "newton", start=-3.0), max_probe_evals=budget)
+    assert d.verdict == "domain-error" and d.probes <= budget
+    assert d.primary.value("first failure at x") == -3.0
+    lo, hi = d.primary.value("domain edge")
+    assert hi < 0 <= lo and lo - hi <= width
+    assert "not defined just below x ≈" in d.primary.summary
+    cured = d.remedy.solve("sqrt(x) - 1")
+    assert cured.converged and abs(cured.root - 1.0) <= 1e-12
+
+
+def test_the_domain_edge_is_found_by_stepping_out_when_the_bracket_search_has_no_budget():
+    # 11 probes leave no room for a bracket search (it needs 12): the defined point comes from stepping out from
+    # the failed start −2 (math: log is real for x > 0 only; log(0) = −inf counts as undefined, like NaN)
+    d = diagnose(solve("log(x)", "newton", start=-2.0), max_probe_evals=11)
+    lo, hi = d.primary.value("domain edge")
+    assert hi <= 0 < lo  # log(0) = −inf is undefined to the Prober, like NaN

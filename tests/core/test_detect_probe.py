@@ -159,3 +159,47 @@ def test_kepler_from_pi_at_m_0005_is_never_left_as_a_bare_budget_stop():
     d = diagnose(run)
     assert d.verdict == ("converged" if run.converged else "unattainable-tolerance"), (run, d)
     assert abs(run.root - kepler_root(0.005, 0.99)) < 1e-14
+
+
+def colebrook32(f):
+    """Colebrook–White (REFERENCES §5) at Re = 1e5, ε/D = 1e-4, computed in float32 (a legacy single-precision model)."""
+    f = np.float32(f)
+    return float(np.float32(1) / np.sqrt(f) + np.float32(2) * np.log10(
+        np.float32(1e-4) / np.float32(3.7) + np.float32(2.51) / (np.float32(1e5) * np.sqrt(f))))
+
+
+def recorded_scipy_secant(f, x0, **kwargs):
+    import warnings
+
+    from scipy.optimize import newton
+
+    from convdiag import record
+
+    rf = record(f)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        try:
+            newton(rf, x0, **kwargs)  # scipy's secant: it fails when two values of f are equal
+        except RuntimeError:
+            pass
+    return rf
+
+
+def test_a_floor_far_above_double_rounding_is_noise_not_a_limit_of_double_precision():
+    from convdiag.core._detect_path import Context
+    from convdiag.core._detect_probe import detect_unattainable
+    from convdiag.core._detect_trace import Prober, build_trace
+
+    rf = recorded_scipy_secant(colebrook32, 0.02, tol=1e-12, maxiter=50)
+    # the float32 result near the root is about 1/√0.0185 ≈ 7.35 in size, where float32 numbers are 2^-21 apart
+    # (IEEE 754 binary32; numpy.spacing): f is only known to about that, 1e8 times double rounding
+    f32_step = float(np.spacing(np.float32(7.35)))
+    assert f32_step == 2.0**-21
+    t = build_trace(rf, xtol=1e-12)
+    found = detect_unattainable(t, Context(Prober(t.f, 60)))
+    assert found is not None and found.kind == "noise-floor"  # not "cannot be met in double precision"
+    assert f32_step / 10 <= found.value("noise level in f") <= 3 * f32_step
+    assert found.value("times rounding") >= 1e4 and "cannot help" in found.advice and "digits=30" in found.advice
+    d = diagnose(rf, xtol=1e-12)
+    assert d.verdict == "noise-floor" and "budget" not in d.kinds and "unattainable-tolerance" not in d.kinds
+

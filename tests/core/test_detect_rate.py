@@ -158,3 +158,4 @@ def test_the_order_on_the_diagnosis_is_the_run_estimate():
     d = diagnose(run)
     est = estimate_order(run, replay=False)
     assert d.order.label == est.label and d.order.rate == pytest.approx(est.rate)
+

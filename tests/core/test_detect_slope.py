@@ -67,3 +67,16 @@ def test_a_sequence_with_the_function_and_derivative_gets_the_same_check():
     run = solve(f, "newton", start=1.0, fprime=g, max_evals=30)
     d = diagnose(run.iterates.tolist(), f=f, fprime=g, method="newton")
     assert d.verdict == "wrong-derivative" and d.source_kind == "sequence" and d.probes > 0
+
+
+def test_a_negative_slope_is_said_to_fall_not_rise():
+    # f = cos x − x falls everywhere: f' = −sin x − 1 ≤ 0 (calculus; sympy.diff gives the same). The derivative
+    # below drops the −1, so it disagrees with the slope of f.
+    f = lambda x: math.cos(x) - x
+    d = diagnose(solve(f, "newton", start=1.0, fprime=lambda x: -math.sin(x), max_evals=30))
+    w = d.finding("wrong-derivative")
+    assert w is not None
+    rows = [v for label, v, _ in w.evidence if label.startswith("f' at x")]
+    assert rows and all(slope == pytest.approx(-math.sin(x) - 1, rel=1e-6) for x, _, slope in rows)
+    assert any(f"f falls at {abs(slope):.6g} (slope {slope:.6g})" in w.summary for _, _, slope in rows)
+    assert "rises" not in w.summary

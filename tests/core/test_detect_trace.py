@@ -169,3 +169,24 @@ def test_the_diagnosis_probes_a_recording_with_the_args_the_solver_passed():
     assert lo <= -1.7692923542386314 <= hi
     assert not any("could not finish" in n for n in d.notes)
 
+
+
+def test_a_newton_recording_whose_first_points_straddle_the_root_is_read_as_newton():
+    # Colebrook–White at Re = 1e5, ε/D = 1e-4 (REFERENCES §5), residual in 1/√f, with its exact derivative.
+    # scipy's Newton from 0.02 overshoots to 0.01843 (f of the other sign), then every iterate falls between
+    # the first two, just as a bracketing method's would; the f' rows say it is Newton.
+    def col(f):
+        return 1 / math.sqrt(f) + 2 * math.log10(1e-4 / 3.7 + 2.51 / (1e5 * math.sqrt(f)))
+
+    def colp(f):
+        inner = 1e-4 / 3.7 + 2.51 / (1e5 * math.sqrt(f))
+        return -0.5 * f**-1.5 - (2.51 / 1e5) * f**-1.5 / (math.log(10) * inner)
+
+    rf = record(col, fprime=colp)
+    root = so.newton(rf, 0.02, fprime=rf.fprime)
+    assert root == pytest.approx(so.brentq(col, 0.008, 0.1, xtol=1e-16), rel=1e-12)  # scipy: the same root
+    t = build_trace(rf)
+    assert (t.fs[0] < 0) != (t.fs[1] < 0) and t.xs[1] < t.xs[2:].min() <= t.xs[2:].max() < t.xs[0]
+    assert t.method == "newton" and t.method_inferred and t.brackets is None
+    d = diagnose(rf)
+    assert d.method == "newton" and d.verdict == "converged"
