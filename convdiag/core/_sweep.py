@@ -113,6 +113,10 @@ class SweepResult(Showable):
     seconds : wall time.
     notes : anything worth knowing (failed chunks, lane-by-lane calls, ...).
     timed_out : the time budget (``max_time``) ran out; the points not finished are ``timeout``.
+    settings : what the sweep was asked to do (the function, start or bracket rule, derivatives, tolerances,
+        budgets; a :class:`~convdiag.core._sweep_run.Spec`), so a report can say how to run it again; None for a
+        result built by hand.
+    max_time : the wall-time budget in seconds (None: none).
     """
 
     table: Arr
@@ -127,6 +131,8 @@ class SweepResult(Showable):
     seconds: float
     notes: tuple[str, ...] = field(default=())
     timed_out: bool = False
+    settings: Spec | None = None
+    max_time: float | None = None
 
     def __len__(self) -> int:
         return int(self.table.shape[0])
@@ -327,6 +333,7 @@ def sweep(
     1.498701133518
     """
     from ._methods import METHODS
+    from ._problem import _callable_name
     from ._session import _validate_settings
 
     owner = "sweep"
@@ -388,7 +395,8 @@ def sweep(
     finally:
         if sink is not None:
             sink.close()
-    label = f if isinstance(f, str) else getattr(f, "__name__", type(f).__name__)
+    sym = type(f).__module__.startswith("sympy")
+    label = f if isinstance(f, str) else str(f) if sym else _callable_name(f)  # a lambda: "function" (reports show it)
     late = int(np.count_nonzero(asm.table["outcome"] == "timeout"))
     if late:
         notes.append(f"the time budget of {max_time:g} s ran out: {late} point(s) not finished are marked timeout")
@@ -396,5 +404,5 @@ def sweep(
         table=asm.table, params=tuple(cols), method=method, label=str(label), grid=grid,
         interrupted=bool(stopped) and bool(np.any(asm.table["outcome"] == "not-run")), chunks=len(bounds),
         chunks_done=len(asm.done), runner=runner, seconds=time.perf_counter() - t0, notes=tuple(notes),
-        timed_out=bool(late),
+        timed_out=bool(late), settings=spec, max_time=max_time,
     )

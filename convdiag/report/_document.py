@@ -102,14 +102,14 @@ class Report:
         h2 = "font-size:18px;margin:22px 0 6px;border-bottom:2px solid #2b6f8f;"
         h3 = "font-size:15px;margin:14px 0 4px;color:#1f4e66;"
         parts = [
-            '<div class="convdiag-report" style="font-family:system-ui,sans-serif;font-size:14px;'
-            'max-width:1000px;line-height:1.45;">',
+            ('<div class="convdiag-report" style="font-family:system-ui,sans-serif;font-size:14px;'
+             'max-width:1000px;line-height:1.45;">'),
             f'<h1 style="font-size:22px;margin:6px 0;">{esc(self.title)}</h1>',
             f'<div style="color:#555;">Created {esc(self.created)}.</div>',
         ]
         if self.summary:
             parts.append(f'<h2 style="{h2}">Summary</h2>')
-            parts.append(html_table(list(SUMMARY_HEADERS), [list(r) for r in self.summary], "rlllllrl"))
+            parts.append(html_table(list(SUMMARY_HEADERS), [list(r) for r in self.summary], "rllllrrl"))
         for i, sec in enumerate(self.sections):
             style = h2 if sec.level == 2 else h3
             tag = "h2" if sec.level == 2 else "h3"
@@ -192,7 +192,7 @@ def _versions() -> tuple[tuple[str, str], ...]:
     return tuple(out)
 
 
-def render_png(draw: Callable[[Any], Any], *, size: tuple[float, float] = (7.0, 4.0), dpi: int = 90) -> bytes:
+def render_png(draw: Callable[[Any], Any], *, size: tuple[float, float] = (7.0, 4.0), dpi: int = 100) -> bytes:
     """Draw with ``draw(figure)`` on a fresh Agg figure (no pyplot state) and return PNG bytes."""
     from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.figure import Figure as MplFigure

@@ -3,16 +3,16 @@
 from __future__ import annotations
 
 import html
-import inspect
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any
 
 from ..errors import ParameterError
 from ._document import Figure, Section, md_table, render_png
-from ._text import fmt, html_table, tolerance_rule
+from ._setup_text import comparison_setup, run_setup_rows, source_html, source_of, sweep_label, sweep_setup
+from ._text import fmt, html_table
 
-__all__ = ["ItemDoc", "document_item"]
+__all__ = ["ItemDoc", "document_item", "merge_notes"]
 
 _EMPTY_SUMMARY = ("", "", "", "", "", "", "")
 
@@ -26,50 +26,12 @@ class ItemDoc:
 
 
 # -- runs ------------------------------------------------------------------------------
-def _source_of(run: Any) -> str:
-    problem = getattr(run, "source", None)
-    if problem is None or getattr(problem, "expression", None) is not None:
-        return ""
-    raw = getattr(problem, "raw", None)
-    try:
-        text = inspect.getsource(raw) if raw is not None else ""
-    except (OSError, TypeError):
-        return ""
-    lines = text.splitlines()
-    if len(lines) > 40:
-        lines = lines[:40] + ["    ...  (truncated)"]
-    return "\n".join(lines)
-
-
-def _settings_rows(run: Any) -> list[list[str]]:
-    s = run.settings
-    rows = [
-        ["function", str(run.problem)],
-        ["method", f"{run.method_title} ({run.method})"],
-        ["starts", ", ".join(fmt(v, 17) for v in run.starts)],
-    ]
-    if run.bracket is not None:
-        rows.append(["bracket", f"[{fmt(run.bracket[0], 17)}, {fmt(run.bracket[1], 17)}]"])
-    if run.params:
-        rows.append(["parameters", ", ".join(f"{k} = {v:g}" for k, v in run.params.items())])
-    rows += [
-        ["stopping rule", tolerance_rule(run)],
-        ["budgets", f"{s.max_evals} evaluations" + (f", {s.max_time:g} s" if s.max_time else "")],
-    ]
-    if run.derivative_source:
-        rows.append(["derivative", run.derivative_source])
-    if run.arithmetic != "real":
-        rows.append(["arithmetic", f"{run.arithmetic}" + (f" ({run.digits} digits)" if run.digits else "")])
-    rows.append(["stopped", f"{run.stop_reason}: {run.message}"])
-    return rows
-
-
 def _draw_run_step(run: Any, ax: Any, period: int = 1) -> None:
     """The last step with its model, the ``period - 1`` steps before it faintly (a cycle shows whole),
     and a failed evaluation marked where it happened."""
-    from ._step_figures import StepDisplay, auto_xlim
+    from ._step_figures import F_FAILED, StepDisplay, auto_xlim
 
-    failure = run.failure
+    failure = run.failure if run.failure is not None and run.failure.reason in F_FAILED else None
     fx = failure.x if failure is not None and failure.x is not None and math.isfinite(failure.x) else None
     known = [float(v) for v in run.iterates if math.isfinite(v)]
     xlim = None
@@ -77,7 +39,9 @@ def _draw_run_step(run: Any, ax: Any, period: int = 1) -> None:
         xlim = auto_xlim(known + [fx], core=known + [fx])
     d = StepDisplay.from_run(run, xlim=xlim, samples=160)
     last = run.steps[-1] if run.steps else None
-    if last is None:
+    if d.failure_reason:
+        pass  # the display's title says where f failed
+    elif last is None:
         d.title = f"{run.method_title}: the start{'s' if len(run.starts) > 1 else ''}"
     else:
         d.title = f"Step {last.index} of {run.method_title} ({last.model.kind} model)"
@@ -86,16 +50,6 @@ def _draw_run_step(run: Any, ax: Any, period: int = 1) -> None:
     for step in run.steps[-period:-1] if period > 1 else ():
         xs, ys = step.model.curve(lo, hi, 120)
         ax.plot(xs, ys, color="#d9822b", lw=1.0, ls=(0, (4, 3)), alpha=0.45, zorder=3)
-    if fx is not None:
-        ax.axvline(fx, color="#b3261e", ls=":", lw=1.3, zorder=2)
-        ax.annotate(
-            f"f failed at x = {fx:.4g}\n({failure.reason})",
-            xy=(fx, 0.0),
-            xytext=(6, 10),
-            textcoords="offset points",
-            fontsize=8,
-            color="#b3261e",
-        )
 
 
 def _cycle_period(diagnosis: Any) -> int:
@@ -133,21 +87,27 @@ def _run_doc(run: Any, index: int, numbered: bool, diagnosis: Any = None) -> Ite
 
     name = f"item{index}"
     estimate = estimate_order(run)
+    mine = diagnosis is not None
     if diagnosis is None:
         diagnosis = _diagnose(run, estimate)
     head = f"{index + 1}. " if numbered else ""
     sections = [Section(f"{head}{run.method_title} on {run.problem}", "", "", level=2)]
 
-    rows = _settings_rows(run)
+    rows = run_setup_rows(run)
     md, page = md_table(["setting", "value"], rows), html_table(["setting", "value"], rows, "ll")
-    source = _source_of(run)
+    source = source_of(run)
     if source:
         md += f"\n\nThe function's source:\n\n```python\n{source}\n```"
-        page += f'<pre style="background:#f4f6f8;padding:8px;font-size:12px;">{html.escape(source)}</pre>'
+        page += source_html(source)
     sections.append(Section("Setup", md, page, level=3))
 
     if diagnosis is not None:
-        sections.append(Section("Diagnosis", _pre_md(diagnosis.to_text()), diagnosis.to_html(), level=3))
+        md, page = _pre_md(diagnosis.to_text()), diagnosis.to_html()
+        why = _order_basis_note(diagnosis.order, estimate) if mine else ""
+        if why:
+            md += f"\n\n*{why}*"
+            page += f'<p style="color:#555;font-style:italic;margin:4px 0;">{html.escape(why)}</p>'
+        sections.append(Section("Diagnosis", md, page, level=3))
 
     figures: list[Figure] = []
     if run.source is not None:
@@ -163,19 +123,70 @@ def _run_doc(run: Any, index: int, numbered: bool, diagnosis: Any = None) -> Ite
     headers, table_rows, _ = run_rows(run)
     sections.append(Section("Iterates", md_table(headers, table_rows), run_html(run), tuple(figures), level=3))
 
-    def draw_progress(fig: Any) -> None:
-        ax1, ax2 = fig.subplots(1, 2)
-        ProgressDisplay.from_run(run, estimate).plot(ax1, ax2)
+    shown = replace(estimate, notes=merge_notes(estimate.notes))
+    md, page = _pre_md(order_text(shown)), order_html(shown)
+    finite = sum(1 for v in run.iterates if math.isfinite(float(v)))
+    progress: tuple[Figure, ...] = ()
+    if finite >= 3:
 
-    progress = Figure(
-        f"{name}-progress",
-        render_png(draw_progress, size=(9.0, 3.4)),
-        "Step size, |f| and error on a log scale against iteration (left) and function evaluations (right).",
-    )
-    sections.append(
-        Section("Observed order of convergence", _pre_md(order_text(estimate)), order_html(estimate), (progress,), level=3)
-    )
+        def draw_progress(fig: Any) -> None:
+            ax1, ax2 = fig.subplots(1, 2)
+            ProgressDisplay.from_run(run, estimate).plot(ax1, ax2)
+
+        caption = "Step size, |f| and error on a log scale against iteration (left) and function evaluations (right)."
+        progress = (Figure(f"{name}-progress", render_png(draw_progress, size=(9.0, 3.6)), caption),)
+    else:
+        why = (f"No figure of how fast it closes in: the run has {finite} finite iterate{'s' if finite != 1 else ''}, "
+               "too few to show a trend (it takes three).")
+        md += f"\n\n{why}"
+        page += f'<p style="margin:4px 0;">{html.escape(why)}</p>'
+    sections.append(Section("Observed order of convergence", md, page, progress, level=3))
     return ItemDoc(tuple(sections), _run_summary(run, diagnosis))
+
+
+_NO_ROOT, _NO_REPLAY = "no high-precision root: ", "no high-precision replay: "
+
+
+def merge_notes(notes: tuple[str, ...]) -> tuple[str, ...]:
+    """The notes once each: a replay note that repeats why there is no high-precision root joins that note.
+
+    Examples
+    --------
+    >>> merge_notes(("no high-precision root: f is float-only", "x", "no high-precision replay: f is float-only", "x"))
+    ('no high-precision root or replay: f is float-only', 'x')
+    """
+    out: list[str] = []
+    why = next((n[len(_NO_ROOT):] for n in notes if n.startswith(_NO_ROOT)), None)
+    for n in notes:
+        if why is not None and n.startswith(_NO_REPLAY) and n[len(_NO_REPLAY):] in (why, "it needs a high-precision root"):
+            out = [f"no high-precision root or replay: {why}" if m == _NO_ROOT + why else m for m in out]
+        elif n not in out:
+            out.append(n)
+    return tuple(out)
+
+
+def _basis_text(e: Any, reference: bool) -> str:
+    if e.basis == "replay":
+        text = f"a {e.digits}-digit replay of this run"
+    elif e.basis == "run":
+        text = "the run's " + ("double-precision iterates only" if e.digits is None else f"{e.digits}-digit iterates")
+    else:
+        text = "the iterates"
+    return text + (f" against a {e.reference}" if reference else "")
+
+
+def _order_basis_note(shown: Any, estimate: Any) -> str:
+    """A sentence when a diagnosis passed in measured the order on another basis than the report's order part."""
+    if shown is None or estimate is None or (shown.basis == estimate.basis and shown.reference == estimate.reference):
+        return ""
+    ref = shown.reference != estimate.reference
+    head = (f"The order part below measures {_basis_text(estimate, ref)} ({estimate.label_text}); the diagnosis above "
+            f"measured {_basis_text(shown, ref)} ({shown.label_text})")
+    if shown.label_text == estimate.label_text:
+        return head + ", and the two agree."
+    if shown.basis == "run" and estimate.basis == "replay":
+        return head + ": rounding leaves the double-precision iterates fewer usable errors, hence the difference."
+    return head + ": they use different references, hence the difference."
 
 
 def _diagnose(run: Any, estimate: Any = None) -> Any:
@@ -184,7 +195,16 @@ def _diagnose(run: Any, estimate: Any = None) -> Any:
     return diagnose(run, order=estimate)  # the diagnosis shows the same order estimate as the report's order part
 
 
-# -- everything else -------------------------------------------------------------------
+# -- comparisons and sweeps: their setup, then what they found ----------------------------------
+def _with_setup(item: Any, heading: str, summary: tuple[str, ...], setup: tuple[str, str], figure: Figure) -> ItemDoc:
+    """A part in three sections: the heading, how it was set up (enough to run it again), and what it found."""
+    return ItemDoc((
+        Section(heading, "", "", level=2),
+        Section("Setup", setup[0], setup[1], level=3),
+        Section("Results", _pre_md(item.to_text()), item.to_html(), (figure,), level=3),
+    ), summary)
+
+
 def _generic(item: Any, heading: str, summary: tuple[str, ...], figure: Figure | None = None) -> ItemDoc:
     section = Section(heading, _pre_md(item.to_text()), item.to_html(), (figure,) if figure is not None else ())
     return ItemDoc((section,), summary)
@@ -211,7 +231,7 @@ def document_item(item: Any, index: int, *, numbered: bool = False) -> ItemDoc:
             "Error against function evaluations for each method (the equal-work view).",
         )
         summary = (str(item.problem), ", ".join(r.method for r in item.results), "compared", "", "", "", "")
-        return _generic(item, f"{head}Methods compared on {item.problem}", summary, fig)
+        return _with_setup(item, f"{head}Methods compared on {item.problem}", summary, comparison_setup(item), fig)
     if kind == "BracketSearch":
         from ._brackets_figures import BracketsDisplay
 
@@ -232,8 +252,9 @@ def document_item(item: Any, index: int, *, numbered: bool = False) -> ItemDoc:
             "Outcome at each parameter point.",
         )
         counts = ", ".join(f"{n} {k}" for k, n in item.counts().items() if n)
-        summary = (str(item.label), item.method, counts, "", "", str(int(item.table["evals"].sum())), "")
-        return _generic(item, f"{head}Parameter sweep of {item.label}", summary, fig)
+        label = sweep_label(item)
+        summary = (label, item.method, counts, "", "", str(int(item.table["evals"].sum())), "")
+        return _with_setup(item, f"{head}Parameter sweep of {label}", summary, sweep_setup(item), fig)
     if kind == "OrderEstimate":
         return _generic(item, f"{head}Observed order of convergence", _EMPTY_SUMMARY)
     raise ParameterError(

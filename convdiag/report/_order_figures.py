@@ -124,7 +124,7 @@ class OrderDisplay:
             else:
                 self._draw(a, self.evals, self.replay_evals, "@evals", "function evaluations")
         axes_list[0].set_title(self.title, fontsize=10, loc="left")
-        axes_list[0].legend(fontsize=8, loc="lower left")
+        axes_list[0].legend(fontsize=9, loc="lower left")
         self.ax_ = axes_list[0] if len(axes_list) == 1 else np.asarray(axes_list, dtype=object)
         self.figure_ = fig
         return self
@@ -179,6 +179,6 @@ class EqualWorkDisplay:
         ax.set_xlabel("function evaluations (f, f' and f'' each count)")
         ax.set_ylabel("error |x − r|")
         ax.set_title(self.title, fontsize=10, loc="left")
-        ax.legend(fontsize=8)
+        ax.legend(fontsize=9)
         self.ax_, self.figure_ = ax, fig
         return self

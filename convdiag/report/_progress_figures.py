@@ -96,17 +96,18 @@ class ProgressDisplay:
             axis.yaxis.set_minor_formatter(NullFormatter())
             axis.xaxis.set_major_locator(MaxNLocator(integer=True, nbins=6))
             axis.grid(True, which="major", color=c["grid"], lw=0.6)
-            axis.tick_params(labelsize=7.5)
+            axis.tick_params(labelsize=9)
             (a[f"step_{where}"],) = axis.plot([], [], "o-", color=c["step"], ms=3, lw=1.2, label="step |xₖ − xₖ₋₁|")
             (a[f"resid_{where}"],) = axis.plot([], [], "^-", color=c["resid"], ms=3, lw=1.0, label="|f(xₖ)|")
             (a[f"error_{where}"],) = axis.plot([], [], "s-", color=c["error"], ms=3, lw=1.2, label="error |xₖ − r|")
         for axis, text in ((ax, "iteration k"), (ax_evals, "function evaluations")):
-            _fixed_labels(axis, text, 8)
+            _fixed_labels(axis, text, 9)
         ax.set_title("How fast it closes in (log scale)", fontsize=9, loc="left", color=c["ink"], y=1.0, pad=4)
         a["legend"] = None
         if legend:
-            a["legend"] = ax_evals.legend(fontsize=7, loc="upper left", bbox_to_anchor=(-0.06, -0.3), ncol=3,
-                                          frameon=False, handlelength=1.5, columnspacing=0.8)
+            # in the title row, over the right-hand axes: next to what it explains, clear of the tick labels
+            a["legend"] = ax_evals.legend(fontsize=9, loc="lower right", bbox_to_anchor=(1.0, 1.0), ncol=3,
+                                          frameon=False, handlelength=1.5, columnspacing=0.8, borderaxespad=0.2)
         a["ax_evals"] = ax_evals
         self.lines_ = a
         return self._apply()

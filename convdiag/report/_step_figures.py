@@ -20,17 +20,26 @@ by point, NaN where f fails, and through fewer points when f is slow
 from __future__ import annotations
 
 import math
-import time
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
 
-from ._figure_style import _EMPTY, COLOURS, FloatArray, _fixed_labels
+from ._figure_style import (
+    _EMPTY,
+    COLOURS,
+    FloatArray,
+    _fixed_labels,
+    _fl,
+    parabola_turn,
+    sample_curve,
+    sideways_parabola,
+)
 from ._progress_figures import ProgressDisplay
 
-__all__ = ["COLOURS", "MODEL_NAMES", "ProgressDisplay", "StepDisplay", "auto_xlim", "sample_curve"]
+__all__ = ["COLOURS", "MODEL_NAMES", "ProgressDisplay", "StepDisplay", "auto_xlim", "parabola_turn", "sample_curve",
+           "sideways_parabola"]
 
 #: plain names of the local models, by ``model.kind``.
 MODEL_NAMES = {
@@ -39,72 +48,8 @@ MODEL_NAMES = {
     "tangent-hyperbola": "hyperbola matching f, f′ and f″",
 }
 
-
-def _fl(v: Any) -> float:
-    try:
-        return float(v)
-    except (TypeError, ValueError, OverflowError):
-        try:
-            return float(complex(v).real)
-        except (TypeError, ValueError, OverflowError):
-            return math.nan
-
-
-def _one(f: Callable[[Any], Any], x: float) -> float:
-    try:
-        with np.errstate(all="ignore"):
-            return _fl(f(float(x)))
-    except Exception:  # noqa: BLE001  (the user's function failed here: a gap in the curve)
-        return math.nan
-
-
-def sample_curve(f: Callable[[Any], Any], lo: float, hi: float, n: int = 300, *,
-                 seconds: float = 2.0) -> tuple[FloatArray, FloatArray]:
-    """f on ``n`` equally spaced points of [lo, hi]; NaN where f raises or is not a real number.
-
-    A function that does not take arrays is sampled point by point within about ``seconds`` of wall
-    time: when the first points show that ``n`` of them would take longer (an inner ODE solve, a
-    quadrature), the curve is drawn through fewer points, at least 16.
-
-    Examples
-    --------
-    >>> xs, ys = sample_curve(lambda x: x * x - 2, 0.0, 2.0, 5)
-    >>> ys.tolist()
-    [-2.0, -1.75, -1.0, 0.25, 2.0]
-    """
-    xs = np.linspace(lo, hi, max(int(n), 2))
-    ys: FloatArray | None = None
-    try:
-        with np.errstate(all="ignore"):
-            out = np.asarray(f(xs))
-        if out.shape == xs.shape and out.dtype.kind in "fiu":
-            ys = out.astype(np.float64)
-    except Exception:  # noqa: BLE001  (not vectorised: go point by point)
-        ys = None
-    if ys is None:
-        ys = _point_by_point(f, xs, seconds)
-        if ys.shape != xs.shape:  # too slow for n points: fewer, still evenly spaced
-            xs = np.linspace(lo, hi, ys.shape[0])
-            ys = np.array([_one(f, x) for x in xs], dtype=np.float64)
-    ys[~np.isfinite(ys)] = np.nan
-    return xs, ys
-
-
-_MIN_SAMPLES = 16
-
-
-def _point_by_point(f: Callable[[Any], Any], xs: FloatArray, seconds: float) -> FloatArray:
-    """f at each of ``xs``; or, when the first few calls show that would exceed ``seconds``, an empty array of the
-    length that fits (the caller resamples on that many points)."""
-    n, out, t0 = xs.shape[0], [], time.perf_counter()
-    for i, x in enumerate(xs):
-        out.append(_one(f, x))
-        if i == 2 and n > _MIN_SAMPLES:
-            per_call = (time.perf_counter() - t0) / 3
-            fits = int(seconds / per_call) if per_call > 0 else n
-            if fits < n:
-                return np.empty(max(_MIN_SAMPLES, fits))
-    return np.array(out, dtype=np.float64)
+#: stop reasons that mean f itself failed at a point (raised, NaN or infinity, not a real number).
+F_FAILED = frozenset({"function-raised", "nonfinite-value", "bad-value"})
 
 
 def auto_xlim(points: Sequence[float], *, core: Sequence[float] = (), reach: float = 25.0) -> tuple[float, float]:
@@ -165,8 +110,10 @@ class StepDisplay:
     zero_x : where the model meets zero.
     new_x, new_y : the new iterate and f there.
     bracket_before, bracket_after : the bracket before and after the step (bracketing methods).
-    title : one line: the step number and what the method did.
+    title : one line: the step number and what the method did (or where f failed, at the end of a failed run).
     offscreen : a note on iterates outside ``xlim``.
+    failure_x, failure_reason : where f failed and why, when the display is at the end of a run that stopped
+        because of it (NaN and "" otherwise); drawn as a dotted red line with a label.
     """
 
     curve_x: FloatArray
@@ -189,6 +136,8 @@ class StepDisplay:
     title: str = ""
     label: str = "f"
     offscreen: str = ""
+    failure_x: float = math.nan
+    failure_reason: str = ""
     ax_: Any = field(default=None, init=False, repr=False)
     figure_: Any = field(default=None, init=False, repr=False)
     lines_: dict[str, Any] = field(default_factory=dict, init=False, repr=False)
@@ -204,27 +153,35 @@ class StepDisplay:
         ``curve`` passes an already sampled (x, f(x)) over ``xlim`` to skip sampling again.
         """
         steps = list(session.steps[: session.position])
+        failure = session.failure if session.at_end else None
         return cls._build(session.problem.f, session.problem.label, session.method.title, list(session.starts),
-                          list(session.start_values), steps, session.bracket, xlim, samples, curve)
+                          list(session.start_values), steps, session.bracket, xlim, samples, curve, failure)
 
     @classmethod
     def from_run(cls, run: Any, step: int | None = None, *, xlim: tuple[float, float] | None = None,
                  samples: int = 300) -> StepDisplay:
-        """Step ``step`` (1-based; default the last) of a run; the curve needs ``run.source``."""
+        """Step ``step`` (1-based; default the last) of a run; the curve needs ``run.source``.
+
+        The last step of a run that stopped because f failed also shows where f failed.
+        """
         n = len(run.steps) if step is None else max(0, min(int(step), len(run.steps)))
         f = run.source.f if run.source is not None else None
+        failure = run.failure if n == len(run.steps) else None
         return cls._build(f, run.problem, run.method_title, list(run.starts), list(run.start_values),
-                          list(run.steps[:n]), run.bracket, xlim, samples, None)
+                          list(run.steps[:n]), run.bracket, xlim, samples, None, failure)
 
     @classmethod
     def _build(cls, f: Callable[[Any], Any] | None, label: str, title: str, starts: list[Any], fstarts: list[Any],
                steps: list[Any], bracket: Any, xlim: tuple[float, float] | None, samples: int,
-               curve: tuple[FloatArray, FloatArray] | None) -> StepDisplay:
+               curve: tuple[FloatArray, FloatArray] | None, failure: Any = None) -> StepDisplay:
         xs0 = [_fl(v) for v in starts]
         known_x = xs0 + [_fl(s.x) for s in steps]
         known_y = [_fl(v) for v in fstarts] + [_fl(s.fx) for s in steps]
         core = xs0 + ([_fl(bracket[0]), _fl(bracket[1])] if bracket is not None else [])
-        lim = xlim if xlim is not None else auto_xlim(known_x, core=core)
+        if failure is not None and failure.reason not in F_FAILED:
+            failure = None  # the run ran out of budget or could not step: not a failure of f at a point
+        failed = [_fl(failure.x)] if failure is not None and failure.x is not None else []
+        lim = xlim if xlim is not None else auto_xlim(known_x + failed, core=core)
         if curve is not None:
             cx, cy = curve
         elif f is not None:
@@ -243,13 +200,35 @@ class StepDisplay:
         else:
             d._add_step(cur, title)
         d.offscreen = _offscreen(known_x[: npast + 1], lim, new=cur is not None)
+        if cur is not None and d.model_kind == "inverse-parabola":  # two arms with the turn off the plot: say so
+            turn = parabola_turn(cur.model.xs, cur.model.ys)
+            if math.isfinite(turn) and not lim[0] <= turn <= lim[1]:
+                side = "→" if turn > lim[1] else "←"
+                d.offscreen = "; ".join(v for v in (d.offscreen, f"the parabola turns back at x = {turn:.4g} {side}") if v)
+        if failure is not None:
+            d._add_failure(failure, title)
         return d
+
+    def _add_failure(self, failure: Any, title: str) -> None:
+        """Where f failed (the run stopped there): the title says so, and the point is marked when it is known."""
+        x = _fl(failure.x) if failure.x is not None else math.nan
+        where = f"f failed at x = {x:.4g} ({failure.reason})" if math.isfinite(x) else f"f failed ({failure.reason})"
+        if self.index == 0:
+            self.title = f"{title}: {where} on the first step"
+        else:
+            self.title = self.title.rstrip(".") + f"; then {where}"
+        self.failure_x, self.failure_reason = x, failure.reason
+        if math.isfinite(x) and not self.xlim[0] <= x <= self.xlim[1]:
+            self.offscreen = "; ".join(v for v in (self.offscreen, f"f failed at x = {x:.6g}, off the plot") if v)
 
     def _add_step(self, step: Any, title: str) -> None:
         m = step.model
         lo, hi = self.xlim
         self.model_kind = m.kind
-        mx, my = m.curve(lo, hi, 200 if m.kind in ("inverse-parabola", "tangent-hyperbola") else 2)
+        if m.kind == "inverse-parabola":
+            mx, my = sideways_parabola(m.xs, m.ys, self.xlim, self.ylim)
+        else:
+            mx, my = m.curve(lo, hi, 200 if m.kind == "tangent-hyperbola" else 2)
         self.model_x, self.model_y = np.asarray(mx, dtype=float), np.asarray(my, dtype=float)
         anchors = {"tangent": lambda: [(m.x, m.y)], "tangent-hyperbola": lambda: [(m.x, m.y)],
                    "chord": lambda: [(m.xa, m.ya), (m.xb, m.yb)],
@@ -295,18 +274,21 @@ class StepDisplay:
         (a["drop"],) = ax.plot([], [], color=c["new"], lw=1.0, ls=":", zorder=4)
         (a["zero"],) = ax.plot([], [], "x", color=c["model"], ms=8, mew=2, zorder=6)
         (a["new"],) = ax.plot([], [], "D", color=c["new"], ms=7, zorder=7)
+        a["failure"] = ax.plot([], [], color="#b3261e", ls=":", lw=1.3, zorder=2, transform=trans)[0]
+        a["failure_text"] = ax.annotate("", xy=(0.0, 0.97), xycoords=trans, xytext=(5, 0), textcoords="offset points",
+                                        fontsize=9, color="#b3261e", va="top", visible=False)
         a["title"] = ax.set_title("", fontsize=9, loc="left", color=c["ink"], y=1.0, pad=4)
-        a["note"] = ax.text(0.99, 0.02, "", transform=ax.transAxes, ha="right", va="bottom", fontsize=8,
+        a["note"] = ax.text(0.99, 0.02, "", transform=ax.transAxes, ha="right", va="bottom", fontsize=9,
                             color=c["new"])
         handles = [Line2D([], [], color=c["ink"], lw=1.6), Line2D([], [], color=c["model"], lw=1.5, ls="--"),
                    Line2D([], [], marker="D", color=c["new"], ls=""), Line2D([], [], marker="o", color=c["past"], ls="")]
         a["legend"] = None
         if legend:
             a["legend"] = ax.legend(handles, ["f(x)", "the step's model", "new point", "earlier points"],
-                                    fontsize=7.5, loc="upper center", bbox_to_anchor=(0.5, -0.115), ncol=4,
+                                    fontsize=9, loc="upper center", bbox_to_anchor=(0.5, -0.13), ncol=4,
                                     frameon=False)
         _fixed_labels(ax, "x", 9)
-        ax.tick_params(labelsize=8)
+        ax.tick_params(labelsize=9)
         self.lines_ = a
         return self._apply(limits=True)
 
@@ -337,6 +319,16 @@ class StepDisplay:
         for key, br in (("before", self.bracket_before), ("after", self.bracket_after)):
             a[key].set_x(br[0] if br else 0.0)
             a[key].set_width(br[1] - br[0] if br else 0.0)
+        fx = self.failure_x
+        shown = math.isfinite(fx) and lo <= fx <= hi
+        a["failure"].set_data([fx, fx] if shown else [], [0.0, 1.0] if shown else [])
+        a["failure_text"].set_visible(shown)
+        if shown:  # at the top, on the side of the line with more room
+            right = fx > lo + 0.6 * (hi - lo)
+            a["failure_text"].xy = (fx, 0.97)
+            a["failure_text"].set_horizontalalignment("right" if right else "left")
+            a["failure_text"].set_position((-5 if right else 5, 0))
+            a["failure_text"].set_text(f"f failed at x = {fx:.4g}\n({self.failure_reason})")
         a["title"].set_text(_wrap(self.title, 95))
         a["note"].set_text(self.offscreen)
         if a["legend"] is not None:

@@ -54,6 +54,8 @@ def text_table(headers: Sequence[str], rows: Sequence[Sequence[str]], align: str
 
 
 _CELL = "padding:2px 8px;border-bottom:1px solid #d8dee4;"
+#: right-aligned cells hold numbers: never break one across lines ("-8.03801e-" / "14").
+_NOWRAP = {"l": "", "r": "white-space:nowrap;"}
 
 
 def html_table(
@@ -69,7 +71,7 @@ def html_table(
     body = "".join(
         "<tr>"
         + "".join(
-            f'<td style="{_CELL}text-align:{side[a]};font-family:monospace;">{html.escape(c)}</td>'
+            f'<td style="{_CELL}text-align:{side[a]};font-family:monospace;{_NOWRAP[a]}">{html.escape(c)}</td>'
             for c, a in zip(r, align)
         )
         + "</tr>"

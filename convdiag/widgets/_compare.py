@@ -26,7 +26,9 @@ from ._host import Canvas, FigureHost, Job, error_box, need_widgets
 __all__ = ["CompareView", "compare_table"]
 
 _TD = "padding:1px 6px;border-bottom:1px solid #e3e8ec;text-align:right;white-space:nowrap;"
-_TH = "padding:2px 6px;border-bottom:2px solid #9fb0bf;text-align:right;background:#f3f6f8;white-space:nowrap;"
+# headers may wrap (the numbers below them do not), so the table fits the view's width
+_TH = ("padding:2px 6px;border-bottom:2px solid #9fb0bf;text-align:right;background:#f3f6f8;vertical-align:bottom;"
+       "line-height:1.2;")
 
 
 def _order(est: Any) -> tuple[str, str]:
@@ -40,7 +42,7 @@ def _order(est: Any) -> tuple[str, str]:
 def compare_table(comparison: Any, colours: Mapping[str, str]) -> str:
     """One row per method: how it stopped, the work to reach the tolerance, observed and theoretical order."""
     tol = comparison.tol
-    heads = ["method", "stopped", f"evaluations to error ≤ {tol:g}", "in all", "order seen", "efficiency seen",
+    heads = ["method", "stopped", "evals to error ≤", "evals in all", "order seen", "efficiency seen",
              "order in theory", "efficiency in theory"]
     best = comparison.fastest()
     out = []
@@ -58,17 +60,18 @@ def compare_table(comparison: Any, colours: Mapping[str, str]) -> str:
                  fmt(cls.efficiency_index(), 4)]
         out.append("<tr>" + "".join(f'<td style="{_TD}{"text-align:left;" if j == 0 else ""}">{c}</td>'
                                     for j, c in enumerate(cells)) + "</tr>")
-    head = "".join(f'<th style="{_TH}{"text-align:left;" if i == 0 else ""}">{html.escape(h)}</th>'
-                   for i, h in enumerate(heads))
+    tol_text = f' <span style="white-space:nowrap;">{html.escape(f"{tol:g}")}</span>'  # "1e-10" in one piece
+    head = "".join(f'<th style="{_TH}{"text-align:left;" if i == 0 else ""}">{html.escape(h)}'
+                   f'{tol_text if i == 2 else ""}</th>' for i, h in enumerate(heads))
     lines = [html.escape(n) for n in comparison.notes]
     if comparison.reference != "best iterate":  # the notes already say which best iterate
         ref = comparison.reference + ("" if comparison.root is None else f" {fmt(comparison.root, 15)}")
         lines.insert(0, f"Errors are measured against the {html.escape(ref)}.")
     note = "".join(f"<div>{line}</div>" for line in lines)
-    return (f'<div style="max-width:960px;overflow-x:auto;"><table class="cdx-compare-table" '
+    return (f'<div style="max-width:100%;overflow-x:auto;"><table class="cdx-compare-table" '
             f'style="border-collapse:collapse;font-size:12px;"><thead><tr>{head}</tr></thead>'
             f"<tbody>{''.join(out)}</tbody></table></div>"
-            f'<div style="color:#6b7785;font-size:12px;margin-top:3px;max-width:960px;">{note}</div>')
+            f'<div style="color:#6b7785;font-size:12px;margin-top:3px;max-width:100%;">{note}</div>')
 
 
 class CompareView:

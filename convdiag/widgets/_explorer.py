@@ -19,6 +19,7 @@ in the explorer's message line, never raised into the kernel.
 
 from __future__ import annotations
 
+import math
 import threading
 from collections.abc import Mapping, Sequence
 from typing import Any
@@ -27,7 +28,7 @@ from ..core._methods import METHODS
 from ..core._problem import as_problem
 from ..core._session import start_session
 from ..errors import ConvdiagError, ParameterError
-from ..report._step_figures import ProgressDisplay, StepDisplay, auto_xlim, sample_curve
+from ..report._step_figures import F_FAILED, ProgressDisplay, StepDisplay, auto_xlim, sample_curve
 from . import _adapters as ad
 from ._controls import param_specs
 from ._explorer_widgets import AXES_F, ExplorerWidgets, guarded
@@ -380,6 +381,9 @@ class Explorer(ExplorerWidgets):
             return self._view
         xs = [float(v) for v in s.run.iterates[: len(s.starts) + s.position]]
         core = xs[: len(s.starts)] + (list(map(float, s.bracket)) if s.bracket is not None else [])
+        failed = getattr(s.failure, "x", None) if s.at_end and getattr(s.failure, "reason", "") in F_FAILED else None
+        if failed is not None and math.isfinite(failed):
+            xs.append(float(failed))  # where f failed is shown (when it is not far off)
         new = auto_xlim(xs, core=core)
         if self._view is not None:
             new = (min(new[0], self._view[0]), max(new[1], self._view[1]))

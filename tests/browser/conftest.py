@@ -146,7 +146,8 @@ def chromium(browser_ready: None):  # type: ignore[no-untyped-def]
 
 @pytest.fixture
 def page(chromium):  # type: ignore[no-untyped-def]
-    context = chromium.new_context(viewport={"width": 1400, "height": 1200}, device_scale_factor=1)
+    # tall enough that the explorer with its panels (about 1500 px) fits above JupyterLab's status bar
+    context = chromium.new_context(viewport={"width": 1400, "height": 2400}, device_scale_factor=1)
     pg = context.new_page()
     try:
         yield pg
@@ -160,3 +161,28 @@ def artifacts() -> pathlib.Path:
     where = pathlib.Path(os.environ.get("CONVDIAG_ARTIFACTS", ROOT / "test-artifacts")) / "browser"
     where.mkdir(parents=True, exist_ok=True)
     return where
+
+
+def _steady_screenshot(target, path: pathlib.Path, *, tries: int = 12, pause: float = 0.3, **options) -> bool:  # type: ignore[no-untyped-def]
+    """Save a screenshot of ``target`` (a page or locator) once two taken ``pause`` s apart are identical.
+
+    A frame caught while a figure is still being redrawn shows half-drawn tick labels; after ``tries``
+    attempts the last one is saved anyway. ``options`` go to Playwright's ``screenshot``. Returns whether
+    the picture had settled.
+    """
+    last = target.screenshot(**options)
+    for _ in range(tries):
+        time.sleep(pause)
+        now = target.screenshot(**options)
+        if now == last:
+            path.write_bytes(now)
+            return True
+        last = now
+    path.write_bytes(last)
+    return False
+
+
+@pytest.fixture(scope="session")
+def steady_screenshot():  # type: ignore[no-untyped-def]
+    """``steady_screenshot(target, path, **options)``: a screenshot taken once the picture stopped changing."""
+    return _steady_screenshot

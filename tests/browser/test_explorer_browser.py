@@ -51,7 +51,8 @@ def _wait_for_change(canvas, before: str, timeout: float = 10.0) -> str:  # type
     raise AssertionError(f"the figure did not change within {timeout:g} s")
 
 
-def test_explorer_steps_and_takes_a_start_from_a_click_in_a_real_browser(lab_url, page, artifacts):  # type: ignore[no-untyped-def]
+def test_explorer_steps_and_takes_a_start_from_a_click_in_a_real_browser(lab_url, page, artifacts,
+                                                                         steady_screenshot):  # type: ignore[no-untyped-def]
     from playwright.sync_api import expect
 
     t0 = time.monotonic()
@@ -80,7 +81,7 @@ def test_explorer_steps_and_takes_a_start_from_a_click_in_a_real_browser(lab_url
     # the table shows Newton's first step, to the printed 12 digits
     expect(rows.nth(1)).to_contain_text(f"{_first_step():.12g}"[:8], timeout=10_000)
     shot_steps = artifacts / "explorer-three-steps.png"
-    explorer.screenshot(path=str(shot_steps))
+    steady_screenshot(explorer, shot_steps)
 
     # click the function plot at x = 3.0 (CSS pixels; the figure is drawn at one pixel per pixel)
     from convdiag.widgets._explorer import AXES_F
@@ -106,7 +107,9 @@ def test_explorer_steps_and_takes_a_start_from_a_click_in_a_real_browser(lab_url
     # E for M = 0.1 rad, e = 0.99 is 0.831660423791057 (REFERENCES.md §5, Kepler, recomputed with mpmath)
     expect(explorer.locator(".cdx-status")).to_contain_text("0.8316604237", timeout=10_000)
     shot_end = artifacts / "explorer-after-click-and-run.png"
-    explorer.screenshot(path=str(shot_end))
+    steady_screenshot(explorer, shot_end)
+    whole = explorer.bounding_box()
+    assert whole is not None and whole["y"] + whole["height"] <= page.viewport_size["height"], whole  # not cut off
 
     # the basin map of the plotted range opens below; a click on it sends that start back
     explorer.locator("button.cdx-open-basins").click()
@@ -125,12 +128,16 @@ def test_explorer_steps_and_takes_a_start_from_a_click_in_a_real_browser(lab_url
         time.sleep(0.1)
     assert abs(float(start.input_value()) - 1.0) <= 0.02, start.input_value()
     shot_basin = artifacts / "basins.png"
-    basin.screenshot(path=str(shot_basin))
+    steady_screenshot(basin, shot_basin)
 
     compare = page.locator(".cdx-compare-view")
     expect(compare.locator(".cdx-compare-table tbody tr")).to_have_count(4, timeout=30_000)
     shot_compare = artifacts / "compare.png"
-    compare.screenshot(path=str(shot_compare))
+    steady_screenshot(compare, shot_compare)
+    table = compare.locator(".cdx-compare-table").bounding_box()
+    view = compare.bounding_box()
+    assert table is not None and view is not None
+    assert table["x"] + table["width"] <= view["x"] + view["width"] + 1, (table, view)  # the table fits the view
     magic = page.locator(".cdx-explorer").nth(1)  # opened by %iterscope
     expect(magic).to_contain_text("x**3 - 2*x + 2", timeout=30_000)
     expect(magic.locator("tr.cdx-row")).to_have_count(1, timeout=30_000)

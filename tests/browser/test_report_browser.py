@@ -10,6 +10,8 @@ have decoded (``naturalWidth > 0``), and a full-page screenshot is saved under
 
 from __future__ import annotations
 
+import re
+
 import pytest
 
 pytestmark = pytest.mark.browser
@@ -26,19 +28,19 @@ def saved_report(tmp_path_factory: pytest.TempPathFactory):  # type: ignore[no-u
     diagnosis = convdiag.diagnose(run)
     fixed = diagnosis.remedy.solve(CASE)
     search = convdiag.find_brackets(CASE, domain=(-3.0, 3.0))
-    comparison = convdiag.compare_methods(CASE, ["newton", "secant", "hybrid"], bracket=(-2.0, -1.5), replay=False)
+    comparison = convdiag.compare_methods(CASE, ["newton", "secant", "hybrid"], bracket=(-2.0, -1.5))
     report = make_report(diagnosis, fixed, search, comparison,
                          title="Newton's two-cycle on x**3 - 2*x + 2 from 0, and its fix")
     folder = tmp_path_factory.mktemp("report")
     paths = report.save(folder)
-    return report, paths["html"]
+    return report, paths["html"], comparison
 
 
 def test_the_saved_html_report_opens_in_chromium_without_errors_and_all_figures_load(
-        chromium, saved_report, artifacts):  # type: ignore[no-untyped-def]
+        chromium, saved_report, artifacts, steady_screenshot):  # type: ignore[no-untyped-def]
     import pathlib
 
-    report, html_path = saved_report
+    report, html_path, comparison = saved_report
     context = chromium.new_context(viewport={"width": 1200, "height": 900}, device_scale_factor=1)
     page = context.new_page()
     console_errors: list[str] = []
@@ -56,7 +58,7 @@ def test_the_saved_html_report_opens_in_chromium_without_errors_and_all_figures_
         headings = page.eval_on_selector_all("h2, h3", "els => els.map(e => e.textContent)")
         body = page.inner_text("body")
         shot = artifacts / "report.png"
-        page.screenshot(path=str(shot), full_page=True)
+        steady_screenshot(page, shot, full_page=True)
         overflow = page.evaluate("() => document.documentElement.scrollWidth - window.innerWidth")
     finally:
         context.close()
@@ -69,5 +71,11 @@ def test_the_saved_html_report_opens_in_chromium_without_errors_and_all_figures_
     assert headings[0] == "Summary" and any(h.endswith("Newton on x**3 - 2*x + 2") for h in headings)
     assert "Diagnosis" in headings and "Software" in headings
     assert "verdict: cycle (period 2)" in body
+    # the comparison measured an order for Newton (quadratic at the simple root near -1.769, Burden & Faires,
+    # from memory) and secant (golden ratio 1.618): numbers, not "not enough points"
+    newton = next(r for r in comparison.results if r.method == "newton")
+    assert newton.estimate.label == "quadratic" and newton.estimate.efficiency is not None
+    part = body[body.index("Methods compared on"):]
+    assert re.search(r"\b2\.\d{3} \(quadratic\)", part) and re.search(r"\b1\.6\d{2} \(superlinear\)", part), part[:2000]
     assert shot.stat().st_size > 10_000
     print(f"\nscreenshot: {shot} ({len(images)} figures, horizontal overflow {overflow} px)")

@@ -115,3 +115,70 @@ def test_a_fast_scalar_function_gets_every_point_it_asked_for():
 def test_auto_xlim_leaves_a_wild_step_out_of_the_picture():
     lo, hi = auto_xlim([0.5, 1.0, -55.3, 26.4], core=[0.1])
     assert -55.3 < lo < 0.1 and 1.0 < hi < 26.4
+
+
+def test_the_sideways_parabola_is_drawn_over_the_whole_plot_and_reaches_the_edges_it_leaves_through():
+    # IQI on x³ − 2x − 2 from 0.5, 1, 1.5: step 1 jumps to 19.1, so step 2's parabola through (1, −3),
+    # (1.5, −1.625), (19.1, 6937.6) turns back far to the right of the plot
+    run = convdiag.solve("x**3 - 2*x - 2", "iqi", start=[0.5, 1.0, 1.5], max_steps=2)
+    m = run.steps[1].model
+    d = StepDisplay.from_run(run).plot()
+    xs, ys = (np.asarray(v, dtype=float) for v in d.lines_["model"].get_data())
+    ok = np.isfinite(xs)
+    coeffs = np.polyfit(np.asarray(m.ys, float), np.asarray(m.xs, float), 2)  # x as a quadratic in y
+    np.testing.assert_allclose(xs[ok], np.polyval(coeffs, ys[ok]), rtol=1e-6, atol=1e-6 * np.ptp(d.xlim))
+    lo, hi = d.xlim
+    assert ys[ok].min() >= d.ylim[0] and ys[ok].max() <= d.ylim[1]
+    assert np.count_nonzero(np.isclose(xs[ok], hi)) == 2  # both arms leave through the right edge
+    # drawn smoothly: neighbouring points of one piece are close in x and in y
+    gaps = np.abs(np.diff(xs))[ok[1:] & ok[:-1]]
+    assert gaps.max() < 0.02 * (hi - lo)
+    turn = coeffs[2] - coeffs[1] ** 2 / (4 * coeffs[0])  # the vertex of x = a y² + b y + c
+    assert turn > hi and f"the parabola turns back at x = {turn:.4g}" in d.offscreen
+
+
+def bad(x):
+    if x > 2:
+        raise ValueError("the table ends at 2")
+    return x * x - 5
+
+
+def test_at_the_end_of_a_run_that_failed_the_title_says_where_f_failed_and_a_line_marks_it():
+    run = convdiag.solve(bad, "newton", start=1.0)  # Newton from 1: x1 = 1 + 4/2 = 3, by hand
+    d = StepDisplay.from_run(run).plot()
+    assert d.title == "Newton: f failed at x = 3 (function-raised) on the first step"
+    assert d.failure_x == pytest.approx(3.0, abs=1e-8) and d.failure_reason == "function-raised"  # f′ by differences
+    assert list(d.lines_["failure"].get_xdata()) == pytest.approx([3.0, 3.0], abs=1e-8)
+    assert d.lines_["failure_text"].get_text() == "f failed at x = 3\n(function-raised)"
+    assert d.xlim[0] < 1.0 and d.xlim[1] > 3.0 and d.offscreen == ""  # the range takes the failed point in
+    narrow = StepDisplay.from_run(run, xlim=(0.0, 2.0)).plot()
+    assert narrow.offscreen == "f failed at x = 3, off the plot" and len(narrow.lines_["failure"].get_xdata()) == 0
+    session = convdiag.start_session(bad, "newton", start=1.0)
+    early = StepDisplay.from_session(session)
+    assert "Press Step" in early.title and math.isnan(early.failure_x)
+    session.forward()
+    late = StepDisplay.from_session(session, xlim=(0.0, 4.0)).plot()
+    assert late.title == d.title and list(late.lines_["failure"].get_xdata()) == pytest.approx([3.0, 3.0], abs=1e-8)
+
+
+def bounded_atan(x):
+    if abs(x) > 4:
+        raise ValueError("outside the fitted range")
+    return math.atan(x)
+
+
+def test_a_run_that_failed_after_some_steps_names_the_last_step_then_the_failure():
+    # Newton on atan x from 1.5 overshoots: −1.694, 2.321, −5.114 (by hand, x+ = x − (1 + x²) atan x)
+    run = convdiag.solve(bounded_atan, "newton", start=1.5, fprime=lambda x: 1 / (1 + x * x))
+    assert len(run.steps) == 2 and run.failure.x == pytest.approx(-5.114, abs=1e-3)
+    d = StepDisplay.from_run(run)
+    assert d.title.startswith("Step 2 of Newton") and d.title.endswith("; then f failed at x = -5.114 (function-raised)")
+    assert math.isnan(StepDisplay.from_run(run, step=1).failure_x)  # earlier steps show no failure
+
+
+def test_a_run_that_ran_out_of_budget_is_not_drawn_as_a_failure_of_f():
+    run = convdiag.solve("x**3 - 2*x + 2", "newton", start=0.0, max_evals=8)  # the two-cycle 0, 1, 0, 1
+    assert run.stop_reason == "max-evals" and run.failure is not None
+    d = StepDisplay.from_run(run).plot()
+    assert "failed" not in d.title and math.isnan(d.failure_x)
+    assert len(d.lines_["failure"].get_xdata()) == 0

@@ -70,3 +70,14 @@ def test_a_bracket_without_a_sign_change_is_reported_and_nothing_is_drawn():
     view = CompareView("x**2 - 2", ["newton", "bisection"], start=1.0, bracket=(2.0, 3.0), canvas="image",
                        background=False)
     assert view.comparison is None and "same sign" in view.message_line.value
+
+
+def test_the_table_scrolls_sideways_in_a_narrow_view_and_its_headers_wrap_while_numbers_do_not():
+    view = CompareView("x**2 - 2", ["newton", "secant"], start=1.0, canvas="image", background=False)
+    page = view.table.value
+    assert page.startswith('<div style="max-width:100%;overflow-x:auto;">')
+    heads = page.split("<thead>")[1].split("</thead>")[0].split("<th ")[1:]
+    cells = page.split("<tbody>")[1].split("<td ")[1:]
+    assert heads and all("white-space:nowrap" not in h.split(">")[0] for h in heads)  # the header cells wrap
+    assert cells and all("white-space:nowrap" in c for c in cells)
+    assert '>evals to error ≤ <span style="white-space:nowrap;">1e-10</span><' in page  # the number in one piece

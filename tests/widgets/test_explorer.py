@@ -121,6 +121,36 @@ def test_a_parameter_slider_runs_the_method_again_with_the_new_value():
     assert ex.session.run.root == pytest.approx(1.49870113351785, abs=1e-12)  # REFERENCES.md §5
 
 
+def test_a_sympy_expression_gets_a_slider_for_its_parameter_and_the_slider_runs_the_method_again():
+    sympy = pytest.importorskip("sympy")
+    x, M, ecc = sympy.symbols("x M ecc")
+    ex = Explorer(x - ecc * sympy.sin(x) - M, "newton", start=1.0, params={"M": 1.0, "ecc": (0.0, 0.99, 0.9)},
+                  canvas="image", background=False)
+    assert set(ex.param_controls) == {"M", "ecc"}
+    first = ex.session
+    ex.param_controls["ecc"].value = 0.5
+    assert ex.session is not first and ex.session.at_end and ex.message == ""
+    assert ex.session.run.params == {"M": 1.0, "ecc": 0.5}
+    assert ex.session.run.derivative_source == "symbolic"
+    assert ex.session.run.root == pytest.approx(1.49870113351785, abs=1e-12)  # REFERENCES.md §5
+
+
+def test_when_f_fails_on_the_first_step_the_figure_says_where_and_marks_it():
+    ex = Explorer(lambda x: math.sqrt(x) - 2, "newton", start=25.0, canvas="image", background=False)
+    ex.step()
+    d = ex.step_display
+    assert ex.step_button.disabled  # the run has ended
+    # x+ = -x + 4 sqrt(x) = -5 from 25, by hand; sqrt raises there
+    assert d.title == "Newton: f failed at x = -5 (function-raised) on the first step"
+    assert "Press Step" not in d.lines_["title"].get_text()
+    assert d.xlim[0] < -5.0 < d.xlim[1]  # the view takes the failed point in
+    assert list(d.lines_["failure"].get_xdata()) == pytest.approx([-5.0, -5.0])
+    assert d.lines_["failure_text"].get_visible() and "f failed at x = -5" in d.lines_["failure_text"].get_text()
+    ex.set_start(4.5)  # a new run: the marker goes
+    assert len(ex.step_display.lines_["failure"].get_xdata()) == 0
+    assert not ex.step_display.lines_["failure_text"].get_visible()
+
+
 def test_a_click_on_the_function_plot_sets_the_start():
     ex = Explorer(CYCLE, "newton", start=0.0, xlim=(-3.0, 2.0), canvas="image", background=False)
     ex.step()
