@@ -145,8 +145,17 @@ def _derivative_callable(d: Any, params: Mapping[str, float], variable: str, nam
 
 def _expression_from_sympy(obj: Any, variable: str | None) -> Any:
     from ._expr import parse_expression, sympy_to_text
+    from ._expr_reader import _CONSTANTS, FUNCTIONS
 
     free = sorted(obj.free_symbols, key=lambda s: s.name)
+    clash = [s.name for s in free if s.name in _CONSTANTS or s.name in FUNCTIONS]
+    if clash:  # the text round trip would read them as the constant or the function of the same name
+        name = clash[0]
+        what = "the constant" if name in _CONSTANTS else "the function"
+        raise ParameterError(
+            f"The sympy symbol {name!r} has the name of {what} {name!r} in convdiag's expressions, so it would be "
+            f"read as that, not as your symbol. Rename the symbol (a descriptive name such as sympy.Symbol('ecc') "
+            f"for an eccentricity) and pass its value under the new name in params.")
     if variable is None:
         names = [s.name for s in free]
         variable = "x" if "x" in names or not names else names[0]

@@ -94,3 +94,17 @@ def test_sympy_abs_and_euler_e_survive_the_round_trip_through_text():
     assert p.expression.params == ()  # E is Euler's number, not a parameter
     # reference: |x| - e is zero at x = e (math.e)
     assert solve(p, "bisection", bracket=(1.0, 4.0)).root == pytest.approx(math.e, rel=1e-15)
+
+
+def test_a_sympy_symbol_named_like_a_constant_is_refused_with_the_way_out():
+    import sympy
+
+    import convdiag
+    from convdiag import ParameterError
+
+    E, e, M = sympy.symbols("E e M")  # an eccentricity called e would silently become Euler's number
+    with pytest.raises(ParameterError, match=r"sympy symbol 'e' has the name of the constant 'e'.*Rename"):
+        convdiag.as_problem(E - e * sympy.sin(E) - M, params={"e": 0.5, "M": 1.0}, variable="E")
+    ecc = sympy.Symbol("ecc")
+    p = convdiag.as_problem(E - ecc * sympy.sin(E) - M, params={"ecc": 0.5, "M": 1.0}, variable="E")
+    assert p.f(1.0) == pytest.approx(1.0 - 0.5 * math.sin(1.0) - 1.0, rel=1e-15)  # reference: math.sin
