@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import json
+import re
 from typing import Any
 
 from ._common import function_arg, load_file_function, parse_params
@@ -40,6 +41,11 @@ def _check_brackets(args: argparse.Namespace) -> str:
     return ""
 
 
+#: what this subcommand reads as a negative number, not an option: argparse's own pattern takes "-2" and "-0.5"
+#: only, so "--near -1e5" or "--near -inf" stopped with "expected one argument".
+NEGATIVE_NUMBER = re.compile(r"^-(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?$|^-(inf|infinity|nan)$", re.IGNORECASE)
+
+
 def register(sub: Any) -> None:
     """Add ``brackets`` to the subcommand parsers."""
     b = sub.add_parser(
@@ -62,4 +68,5 @@ def register(sub: Any) -> None:
                    help="derivative, to check Newton starts: an expression (or PATH.py:FUNCTION with --file)")
     b.add_argument("--param", action="append", metavar="NAME=VALUE", help="model parameter (repeatable)")
     b.add_argument("--json", action="store_true", help="print one JSON object")
+    b._negative_number_matcher = NEGATIVE_NUMBER  # the subcommand's parser reads its own arguments
     b.set_defaults(func=_cmd_brackets, check=_check_brackets)

@@ -4,9 +4,10 @@
 to be classified. :meth:`Work.scan_domain` samples a domain on a grid and
 :meth:`Work.expand` searches outward from a guess; each sign change is judged
 by ``_signchange.classify_sign_change``, each defined/undefined boundary is
-located by ``_edges.locate_edge``, each dip of |f| is examined by
+located by ``_edges.locate_edge``, each run of infinite samples is judged pole or
+overflow by ``_edges.inspect_infinite``, each dip of |f| is examined by
 ``_edges.inspect_dip``. :meth:`Work.finish` ranks the root brackets and adds
-their starts (``_bracket_starts``) and advice.
+their starts and ranks them (``_bracket_starts``).
 """
 
 from __future__ import annotations
@@ -14,14 +15,13 @@ from __future__ import annotations
 import itertools
 import math
 from collections.abc import Sequence
-from dataclasses import replace
 
 import numpy as np
 
 from ._bracket_sampler import Sampler
-from ._bracket_starts import recommend_starts
-from ._brackets import Candidate, _g, _opposite, advice
-from ._edges import inspect_dip, locate_edge
+from ._bracket_starts import rank_candidates, recommend_starts
+from ._brackets import Candidate, _g, _opposite
+from ._edges import inspect_dip, inspect_infinite, locate_edge
 from ._signchange import classify_sign_change
 
 __all__ = ["Work"]
@@ -70,6 +70,7 @@ class Work:
         self.values: list[float] = []
         self.scale = math.nan
         self.span = (math.inf, -math.inf)
+        self.judged: set[float] = set()  # infinite samples of the outward search already judged
 
     def _seen(self, xs: Sequence[float], vals: Sequence[float]) -> None:
         self.values.extend(abs(v) for v in vals if math.isfinite(v) and v != 0)
@@ -154,9 +155,56 @@ class Work:
         reason = f"{where} (at the end of what was sampled, so the sign beyond it is unknown)"
         self.found.append(Candidate("root", z_lo, z_hi, 0.0, 0.0, x, evidence, reason))
 
-    def infinite(self, x: float, v: float, after: int) -> None:
-        evidence = {"found_after": float(after)}
-        self.found.append(Candidate("pole", x, x, v, v, x, evidence, f"f({_g(x, 17)}) = {v}"))
+    def infinite(
+        self, x_first: float, x_last: float, value: float, left: tuple[float, float] | None,
+        right: tuple[float, float] | None, after: int, extent: str,
+    ) -> None:
+        """Judge samples x_first..x_last where f = ±inf (``left``/``right``: the finite neighbours, None at the
+        end of what was searched): a pole, or a domain edge per side where f overflows. ``extent`` says how
+        far the infinite values reach, for the overflow reason."""
+        before = self.s.count
+        inf = inspect_infinite(
+            self.s, x_first, x_last, value, left=left, right=right, xtol=self.edge_tol, max_evals=self.s.max_evals
+        )
+        spent = float(self.s.count - before)
+        if inf.kind == "pole":
+            el, er = inf.left, inf.right
+            assert el is not None and er is not None
+            gl, gr = inf.growth
+            evidence = {
+                "exponent": inf.exponent, "growth_left": gl, "growth_right": gr, "width": er.x_defined - el.x_defined,
+                "found_after": float(after), "evaluations": spent,
+            }
+            reason = (
+                f"f({_g(inf.x, 17)}) = {value}, and |f| grows toward it from both sides ({_g(gl, 3)}-fold on the "
+                f"left, {_g(gr, 3)}-fold on the right, down to [{_g(el.x_defined, 12)}, {_g(er.x_defined, 12)}])"
+            )
+            self.found.append(Candidate("pole", el.x_defined, er.x_defined, el.f_defined, er.f_defined, inf.x,
+                                        evidence, reason))
+        for e in () if inf.kind == "pole" else (inf.left, inf.right):
+            if e is None:
+                continue
+            lo, hi = sorted((e.x_defined, e.x_undefined))
+            side = e.undefined_side
+            if inf.kind == "overflow":
+                reason = f"f overflows beyond ≈ {_g(e.x_defined)}: f = {value} from {_g(e.x_undefined, 12)} {extent}"
+            else:
+                reason = (f"f is finite at {_g(e.x_defined, 12)} and {value} just to its {side}: infinite over a "
+                          "stretch with finite values beyond it, not a pole (the stretch is wider than the tolerance, "
+                          "or |f| does not grow toward it)")
+            if not e.complete:
+                reason += "; the budget ran out before the edge was located to the tolerance"
+            evidence = {"overflow": 1.0, "width": hi - lo, "found_after": float(after), "evaluations": spent}
+            f_lo, f_hi = (value, e.f_defined) if side == "left" else (e.f_defined, value)
+            self.found.append(
+                Candidate("domain-edge", lo, hi, f_lo, f_hi, e.x_defined, evidence, reason, undefined_side=side)
+            )
+        for e in (inf.left, inf.right):  # sign changes met on the way
+            pts = e.defined_points if e is not None else ()
+            for (p, fp), (q, fq) in itertools.pairwise(pts):
+                if _opposite(fp, fq):
+                    self.pending.append((min(p, q), fp if p < q else fq, max(p, q), fq if p < q else fp, self.s.count))
+        self.run_pending()
 
     def dip(self, p1: tuple[float, float], p2: tuple[float, float], p3: tuple[float, float], after: int) -> None:
         (a, fa), (b, fb), (c, fc) = sorted((p1, p2, p3))
@@ -202,6 +250,7 @@ class Work:
         vs = self.s.many(xs).tolist()
         after = self.s.count
         self._seen(xs, vs)
+        infinite: list[tuple[int, int]] = []
         i = 0
         while i < n:
             if vs[i] == 0:  # a run of exact zeros
@@ -213,8 +262,13 @@ class Work:
                 self.zero(left, xs[i], xs[j], right, after)
                 i = j + 1
                 continue
-            if math.isinf(vs[i]):
-                self.infinite(xs[i], vs[i], after)
+            if math.isinf(vs[i]):  # a run of infinite values: a pole hit exactly, or overflow
+                j = i
+                while j + 1 < n and math.isinf(vs[j + 1]):
+                    j += 1
+                infinite.append((i, j))
+                i = j + 1
+                continue
             i += 1
         edges: list[tuple[float, float, float]] = []
         lone = {  # one undefined sample between values of opposite signs: judged as one sign change
@@ -247,6 +301,15 @@ class Work:
         self.run_pending()
         for x_def, f_def, x_undef in edges:
             self.edge(x_def, f_def, x_undef, after)
+        for i, j in infinite:
+            left = (xs[i - 1], vs[i - 1]) if i > 0 and math.isfinite(vs[i - 1]) else None
+            right = (xs[j + 1], vs[j + 1]) if j + 1 < n and math.isfinite(vs[j + 1]) else None
+            if left is None and right is None:
+                continue  # infinite wherever sampled, or between undefined stretches: nothing to bisect from
+            end = (xs[0] if i == 0 else xs[-1]) if i == 0 or j == n - 1 else math.nan
+            extent = (f"to the end of the range searched ({_g(end)})" if math.isfinite(end)
+                      else "up to where f is undefined")
+            self.infinite(xs[i], xs[j], vs[i], left, right, after, extent)
         for i in range(1, n - 1):
             self.dip((xs[i - 1], vs[i - 1]), (xs[i], vs[i]), (xs[i + 1], vs[i + 1]), after)
 
@@ -257,24 +320,28 @@ class Work:
         active = {-1: True, 1: True}
         r, first = step, True
         edges: list[tuple[float, float, float]] = []
+        known: dict[float, float] = {}  # points evaluated a round early, beyond an infinite sample
         for _ in range(MAX_DOUBLINGS + 1):
             sides = [d for d in (-1, 1) if active[d] and math.isfinite(x0 + d * r) and abs(x0 + d * r) < 1e300]
             if not sides:
                 self.notes.append(
-                    "Both directions ended (at an edge of the domain of f, or beyond |x| = 1e300) without a root "
-                    "bracket."
+                    "Both directions ended (at an edge of the domain of f, where f overflows, or beyond |x| = 1e300) "
+                    "without a root bracket."
                 )
                 return
             pts = [x0 + d * r for d in sides]
-            vals = self.s.many(pts).tolist()
+            todo = [x for x in pts if x not in known]
+            fresh = dict(zip(todo, self.s.many(todo).tolist())) if todo else {}
+            vals = [known.pop(x) if x in known else fresh[x] for x in pts]
             after = self.s.count
             self._seen(pts, vals)
+            infs: list[tuple[int, float, float, float, float]] = []
             for d, x, v in zip(sides, pts, vals):
                 seq = seqs[d]
                 p, fp = seq[-1]
                 seq.append((x, v))
-                if math.isinf(v):
-                    self.infinite(x, v, after)
+                if math.isinf(v) != math.isinf(fp) and not (math.isnan(v) or math.isnan(fp)):
+                    infs.append((d, p, fp, x, v))
                 if len(seq) >= 3 and seq[-2][1] == 0:
                     self.zero(seq[-3], seq[-2][0], seq[-2][0], seq[-1], after)
                 if math.isfinite(fp) and math.isfinite(v):
@@ -289,6 +356,7 @@ class Work:
             for x_def, f_def, x_undef in edges:
                 self.edge(x_def, f_def, x_undef, after)
             edges.clear()
+            self._infinities(x0, r, infs, known, active, after)
             for d in sides:
                 if len(seqs[d]) >= 3:
                     p1, p2, p3 = seqs[d][-3:]
@@ -304,27 +372,53 @@ class Work:
             "without a root bracket. Give a domain, or a guess nearer a root."
         )
 
-    # -- starts, ranking, advice -----------------------------------------------------------
-    def starts(self, c: Candidate) -> Candidate:
-        return recommend_starts(self.s, c)
+    def _infinities(
+        self, x0: float, r: float, infs: list[tuple[int, float, float, float, float]], known: dict[float, float],
+        active: dict[int, bool], after: int,
+    ) -> None:
+        """Judge where f turned infinite (or finite again) between two samples of the outward search.
 
+        Finite, then infinite going out: the next point out (evaluated now, kept for the next round) tells
+        a pole hit exactly (finite again beyond) from overflow (still infinite: that side stops). Infinite,
+        then finite: f is infinite at the guess; both first neighbours finite make one judgement.
+        """
+        at_guess = [t for t in infs if t[1] == x0 and math.isinf(t[2])]
+        if len(at_guess) == 2:  # f(x0) = ±inf between two finite values
+            (_, _, f0, xl, vl), (_, _, _, xr, vr) = sorted(at_guess)
+            self.infinite(x0, x0, f0, (xl, vl), (xr, vr), after, "")
+            infs = [t for t in infs if t not in at_guess]
+        for d, p, fp, x, v in infs:
+            if math.isinf(fp):  # infinite from p back toward the guess, finite at x
+                if p in self.judged:
+                    continue
+                near = (x, v)
+                self.infinite(p, p, fp, near if d < 0 else None, near if d > 0 else None, after,
+                              f"back toward the guess {_g(x0)}")
+                continue
+            xb = x0 + d * 2 * r
+            fb = math.nan
+            if math.isfinite(xb) and abs(xb) < 1e300:
+                fb = known[xb] = self.s(xb)
+            near = (p, fp)
+            if math.isfinite(fb):  # finite again beyond: a pole hit exactly, or an infinite stretch
+                far = (xb, fb)
+                self.infinite(x, x, v, far if d < 0 else near, near if d < 0 else far, after, "")
+                self.judged.add(x)  # the next round must not judge it again from the far side
+                continue
+            extent = (f"up to where f is undefined (at {_g(xb)})" if math.isnan(fb) and xb in known
+                      else f"to the end of the range searched ({_g(xb if math.isinf(fb) else x)})")
+            if xb in known:
+                self._seen([xb], [fb])
+            self.infinite(x, x, v, None if d < 0 else near, near if d < 0 else None, after, extent)
+            active[d] = False
+
+    # -- starts, ranking, advice -----------------------------------------------------------
     def finish(self, *, near: float | None) -> tuple[Candidate, ...]:
         for a, fa, b, fb, after in self.pending:
             reason = "a sign change the evaluation budget left unexamined"
             self.found.append(Candidate("unclassified", a, b, fa, fb, a + (b - a) / 2, {"found_after": after}, reason))
-        roots = [self.starts(c) for c in self.found if c.kind == "root"]
-
-        def clean(c: Candidate) -> bool:
-            q = c.evidence.get("exponent", math.nan)
-            return c.newton is not None and (bool(c.evidence.get("exact_zero")) or 0.7 <= q <= 1.5)
-
-        def key(c: Candidate) -> tuple[float, bool, float]:
-            dist = 0.0 if near is None or c.lo <= near <= c.hi else min(abs(c.lo - near), abs(c.hi - near))
-            return (dist, not clean(c), c.x)
-
-        ranked = [replace(c, rank=i + 1) for i, c in enumerate(sorted(roots, key=key))]
-        others = sorted((c for c in self.found if c.kind != "root"), key=lambda c: (c.x, c.kind))
-        if not ranked:
+        found = [recommend_starts(self.s, c) if c.kind == "root" else c for c in self.found]
+        if not any(c.kind == "root" for c in found):
             lo, hi = self.span
             self.notes.append(f"No root bracket found on [{_g(lo)}, {_g(hi)}], the part of the line searched.")
-        return tuple(replace(c, recommend=advice(c, self.touch_rtol)) for c in ranked + others)
+        return rank_candidates(found, near=near, touch_rtol=self.touch_rtol)

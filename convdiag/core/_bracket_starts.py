@@ -1,9 +1,10 @@
-"""Recommended starts for a root bracket, each checked by one cheap step.
+"""Recommended starts for a root bracket, each checked by one cheap step; the ranking of candidates.
 
 For a root bracket found by :func:`~convdiag.core._brackets.find_brackets`:
 a Newton start whose tangent step lands inside the bracket (f' from the
 problem, else the bracket's secant slope), a secant pair across the closest
-sign change, and an IQI triple whose first step stays inside.
+sign change, and an IQI triple whose first step stays inside. :func:`rank_candidates`
+puts the root brackets first (nearest the guess, then cleanest) and adds the advice.
 """
 
 from __future__ import annotations
@@ -14,10 +15,10 @@ from collections.abc import Sequence
 from dataclasses import replace
 
 from ._bracket_sampler import Sampler
-from ._brackets import Candidate, _g, _opposite
+from ._brackets import Candidate, _g, _opposite, advice
 from ._step import Halt
 
-__all__ = ["recommend_starts"]
+__all__ = ["rank_candidates", "recommend_starts"]
 
 
 def _false_position(a: float, b: float, fa: float, fb: float) -> float:
@@ -98,3 +99,23 @@ def recommend_starts(sampler: Sampler, c: Candidate) -> Candidate:
             checks.append(f"IQI from ({', '.join(_g(t) for t in triple)}) rejected: the first step goes to "
                           f"{_g(p)}, outside the bracket")
     return replace(c, newton=newton, secant=secant, iqi=iqi, checks=tuple(checks))
+
+
+def rank_candidates(found: Sequence[Candidate], *, near: float | None, touch_rtol: float) -> tuple[Candidate, ...]:
+    """Root brackets first (rank 1, 2, ...: nearest ``near``, then cleanest), then the others by position, with advice.
+
+    A clean root bracket has a checked Newton start and |f| shrinking like width^q with 0.7 <= q <= 1.5 (a
+    simple root), or holds an exact zero.
+    """
+
+    def clean(c: Candidate) -> bool:
+        q = c.evidence.get("exponent", math.nan)
+        return c.newton is not None and (bool(c.evidence.get("exact_zero")) or 0.7 <= q <= 1.5)
+
+    def key(c: Candidate) -> tuple[float, bool, float]:
+        dist = 0.0 if near is None or c.lo <= near <= c.hi else min(abs(c.lo - near), abs(c.hi - near))
+        return (dist, not clean(c), c.x)
+
+    ranked = [replace(c, rank=i + 1) for i, c in enumerate(sorted((c for c in found if c.kind == "root"), key=key))]
+    others = sorted((c for c in found if c.kind != "root"), key=lambda c: (c.x, c.kind))
+    return tuple(replace(c, recommend=advice(c, touch_rtol)) for c in ranked + others)

@@ -50,11 +50,13 @@ class Candidate:
     Attributes
     ----------
     kind : "root" (a bracket with a sign change that closes on a zero), "pole"
-        (|f| grows without bound as the sign change is refined), "jump" (f
+        (|f| grows without bound as the sign change is refined, or f = ±inf at a
+        sample with f finite and growing toward it on both sides), "jump" (f
         changes sign across a few ulps without nearing zero), "touch" (|f| dips
         to zero without a sign change), "domain-edge" (f is undefined on one
-        side: NaN or an exception) or "unclassified" (a sign change the budget
-        left unexamined).
+        side: NaN or an exception; or infinite from there on, as when it
+        overflows, with ``evidence["overflow"] = 1``) or "unclassified" (a sign
+        change the budget left unexamined).
     lo, hi : the interval (for a root, a bracket: f(lo) and f(hi) have opposite
         signs, or one is exactly 0).
     f_lo, f_hi : f at the ends (NaN on an undefined side).
@@ -186,6 +188,16 @@ def _check_float(v: Any, name: str, what: str, ok: Callable[[float], bool]) -> f
     return float(v)
 
 
+def _as_float(v: Any) -> Any:
+    """v as a float when it is a real number (not a bool) that fits one; else v unchanged (for the message)."""
+    if isinstance(v, numbers.Real) and not isinstance(v, bool):
+        try:
+            return float(v)
+        except (OverflowError, TypeError, ValueError):
+            return v
+    return v
+
+
 def find_brackets(
     f: Any,
     *,
@@ -272,8 +284,11 @@ def find_brackets(
     if domain is not None:
         if not isinstance(domain, (list, tuple)) or len(domain) != 2:
             raise ParameterError.expected("domain", "find_brackets", "a pair (lo, hi) with lo < hi", domain)
-        lo = _check_float(domain[0], "domain", "a pair of finite floats (lo, hi) with lo < hi", lambda v: True)
-        hi = _check_float(domain[1], "domain", "a pair of finite floats (lo, hi) with lo < hi", lambda v: v > lo)
+        got = tuple(_as_float(v) for v in domain)
+        if not all(isinstance(v, float) and math.isfinite(v) for v in got) or not got[0] < got[1]:
+            raise ParameterError.expected("domain", "find_brackets", "a pair of finite floats (lo, hi) with lo < hi",
+                                          got)
+        lo, hi = float(got[0]), float(got[1])
         if not math.isfinite(hi - lo):
             raise ParameterError.expected("domain", "find_brackets", "a pair (lo, hi) with a finite width hi - lo",
                                           domain)
@@ -363,7 +378,7 @@ def advice(c: Candidate, touch_rtol: float = 1e-8) -> str:
                      f"method are only linear here — prefer the bracket, or Newton with x − {m}·f/f'.")
         return text
     if c.kind == "pole":
-        grow = f" (|f| grows like width^{q:.2g} as the sign change closes in)" if math.isfinite(q) else ""
+        grow = f" (|f| grows like width^{q:.2g} as it is closed in on)" if math.isfinite(q) else ""
         return (f"Pole near {x}, not a root{grow}. A bracketing method given a bracket across it converges to the "
                 "pole; keep brackets and starts on one side of it.")
     if c.kind == "jump":
@@ -376,6 +391,9 @@ def advice(c: Candidate, touch_rtol: float = 1e-8) -> str:
     if c.kind == "domain-edge":
         side = c.undefined_side or "left"
         other = "right" if side == "left" else "left"
+        if c.evidence.get("overflow"):
+            return (f"f is infinite (overflow) to the {side} of {x}: keep starts and brackets to the {other}; if a "
+                    "root may lie beyond, rescale f (divide out the growing factor, or take logarithms).")
         return (f"f is undefined to the {side} of {x}: keep starts and brackets to the {other}; an open method "
                 "can step across, so prefer a bracket inside the domain.")
     return f"Sign change in [{lo}, {hi}] not examined: the evaluation budget ran out. Raise max_evals."

@@ -44,7 +44,7 @@ def _evidence(c: Candidate) -> str:
     if c.kind == "touch":
         return f"min |f| = {fmt(e.get('min_abs_f'), 2)}"
     if c.kind == "domain-edge":
-        return f"undefined on the {c.undefined_side}"
+        return f"{'overflows' if e.get('overflow') else 'undefined'} on the {c.undefined_side}"
     return "budget ran out"
 
 

@@ -92,3 +92,33 @@ def test_bad_input_exits_2_with_a_message(main, capsys, args, message):
     code, out, err = run_cli(main, capsys, *args)
     assert code == 2 and out == ""
     assert message in err
+
+
+def test_a_reversed_domain_is_quoted_whole(main, capsys):
+    code, out, err = run_cli(main, capsys, "brackets", "x**2-1", "--domain", "5", "0")
+    assert code == 2 and out == ""
+    assert "with lo < hi. Got (5.0, 0.0) instead." in err
+
+
+@pytest.mark.parametrize("value", ["inf", "-inf", "nan", "1e999"])
+def test_a_guess_that_is_not_finite_is_refused_clearly(main, capsys, value):
+    code, out, err = run_cli(main, capsys, "brackets", "x**2-1", "--near", value)
+    assert code == 2 and out == ""
+    assert "The 'near' parameter of find_brackets must be a finite float. Got" in err
+
+
+def test_negative_numbers_in_exponent_form_are_read_as_values(main, capsys):
+    code, out, _ = run_cli(main, capsys, "brackets", "x**2-1", "--near", "-1e1", "--json")
+    d = json.loads(out)
+    assert code == 0 and d["near"] == -10.0
+    assert d["brackets"][0]["lo"] <= -1.0 <= d["brackets"][0]["hi"]  # x^2 = 1 at -1 (exact), the root nearer -10
+    code, out, _ = run_cli(main, capsys, "brackets", "x**2-1", "--domain", "-2.5e0", "-5e-1", "--json")
+    (root,) = json.loads(out)["brackets"]
+    assert code == 0 and root["lo"] <= -1.0 <= root["hi"]
+
+
+def test_exp_overflow_is_listed_once_not_as_poles(main, capsys):
+    code, out, _ = run_cli(main, capsys, "brackets", "exp(x) + 1", "--near", "0", "--json")
+    d = json.loads(out)
+    assert code == 1 and [b["kind"] for b in d["brackets"]] == ["domain-edge"]
+    assert abs(d["brackets"][0]["x"] - 709.782712893384) < 1e-6  # numpy.log(numpy.finfo(float).max)

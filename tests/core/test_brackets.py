@@ -67,7 +67,7 @@ def test_give_exactly_one_of_domain_and_near():
     "kwargs, match",
     [
         ({"domain": (2.0, 1.0)}, r"The 'domain' parameter of find_brackets must be a pair of finite floats"),
-        ({"domain": (0.0, math.inf)}, r"'domain' parameter .* Got inf instead"),
+        ({"domain": (0.0, math.inf)}, r"'domain' parameter .* Got \(0\.0, inf\) instead"),
         ({"near": math.nan}, r"The 'near' parameter of find_brackets must be a finite float. Got nan"),
         ({"near": 0.0, "max_evals": 2}, r"The 'max_evals' parameter of find_brackets must be an int >= 3. Got 2"),
         ({"near": 0.0, "step": -1.0}, r"The 'step' parameter of find_brackets must be a finite float > 0"),
@@ -76,6 +76,12 @@ def test_give_exactly_one_of_domain_and_near():
 def test_bad_values_are_refused_with_the_template_message(kwargs, match):
     with pytest.raises(ParameterError, match=match):
         find_brackets("x - 1", **kwargs)
+
+
+@pytest.mark.parametrize("domain", [(5, 0), [5.0, 0.0], (np.float64(5.0), np.float64(0.0))])
+def test_a_reversed_domain_is_quoted_whole_in_the_message(domain):
+    with pytest.raises(ParameterError, match=r"with lo < hi\. Got \(5\.0, 0\.0\) instead\.$"):
+        find_brackets("x**2 - 1", domain=domain)
 
 
 def test_the_result_serialises_to_plain_json():

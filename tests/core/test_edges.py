@@ -6,7 +6,7 @@ import math
 import numpy as np
 import pytest
 
-from convdiag.core._edges import inspect_dip, locate_edge
+from convdiag.core._edges import inspect_dip, inspect_infinite, locate_edge
 
 
 def test_an_edge_of_sqrt_is_located_at_zero():
@@ -48,3 +48,44 @@ def test_a_dip_that_stays_away_from_zero_is_a_near_miss_or_nothing():
 def test_a_dip_into_an_undefined_region_says_so():
     d = inspect_dip(lambda x: math.sqrt(abs(x - 1) - 0.01) + 0.5, 0.5, 1.6, 1.0, scale=1.0)
     assert d.kind == "undefined" and abs(d.x - 1) < 0.01
+
+
+def test_a_dip_just_below_zero_is_a_crossing_between_two_close_roots():
+    d = inspect_dip(lambda x: (x - 1) ** 2 - 1e-12, 0.5, 1.6, 1.0, scale=1.0)
+    r1, r2 = sorted(np.roots([1.0, -2.0, 1.0 - 1e-12]).real)  # 1 ± 1e-6, reference numpy.roots
+    assert d.kind == "crossing" and d.fx < 0 and r1 < d.x < r2
+    assert abs(r2 - r1 - 2e-6) < 1e-9
+
+
+def test_a_flip_the_budget_leaves_unchecked_is_no_touch():
+    d = inspect_dip(lambda x: (x - 1) ** 2 - 1e-12, 0.5, 1.6, 1.0, scale=1.0, max_evals=12)
+    assert d.kind == "unfinished" and any(v < 0 for _, v in d.points)  # 1 ± 1e-6 (exact): f < 0 between
+
+
+def test_an_exact_hit_on_a_pole_is_a_pole_and_its_order_is_measured():
+    def f(x):
+        return 1 / (x - 2) if x != 2 else math.inf  # simple pole at 2 (exact)
+
+    inf = inspect_infinite(f, 2.0, 2.0, math.inf, left=(1.5, -2.0), right=(2.5, 2.0), xtol=1e-10)
+    assert inf.kind == "pole" and inf.x == 2.0
+    assert inf.left.x_defined < 2.0 < inf.right.x_defined and abs(inf.exponent + 1) < 0.01  # |f| ~ d^-1
+    assert min(inf.growth) > 1e8
+
+
+def test_overflow_to_the_end_is_located_at_the_log_of_the_largest_double():
+    def f(x):
+        with np.errstate(over="ignore"):
+            return float(np.exp(x))  # inf past the largest double
+
+    inf = inspect_infinite(f, 800.0, 800.0, math.inf, left=(600.0, math.exp(600.0)), right=None, xtol=1e-9)
+    assert inf.kind == "overflow" and inf.right is None and inf.left.undefined_side == "right"
+    assert abs(inf.x - float(np.log(np.finfo(float).max))) < 1e-8  # reference: numpy.log(numpy.finfo(float).max)
+
+
+def test_infinite_over_a_stretch_is_not_a_pole():
+    def f(x):
+        return math.inf if abs(x) < 0.25 else x  # infinite on (-0.25, 0.25), finite and flat outside (exact)
+
+    inf = inspect_infinite(f, -0.2, 0.2, math.inf, left=(-0.5, -0.5), right=(0.5, 0.5), xtol=1e-9)
+    assert inf.kind == "infinite"
+    assert abs(inf.left.x_defined + 0.25) < 1e-8 and abs(inf.right.x_defined - 0.25) < 1e-8

@@ -78,3 +78,11 @@ def test_an_empty_search_still_reads_well():
     text = brackets_text(found)
     assert "nothing found" in text and "budget of 20 ran out" in text
     assert "nothing found" in brackets_html(found)
+
+
+def test_an_overflow_edge_reads_as_overflow_not_undefined():
+    found = find_brackets("exp(x) - 2", domain=(-1000.0, 1000.0))  # exp overflows past 709.78
+    text = brackets_text(found)
+    row = next(ln for ln in text.splitlines() if ln.split()[:1] == ["domain-edge"])
+    assert "overflows on the right" in row and "709.78271" in row  # numpy.log(numpy.finfo(float).max)
+    assert "infinite (overflow) to the right of 709.783" in text and "pole" not in text
