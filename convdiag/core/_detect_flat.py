@@ -22,9 +22,11 @@ flat
     least 8 iterates f kept one sign everywhere and the smallest |f| is above 0.1 × |f| at
     the start: the iterates circle a minimum of |f| that does not reach zero (then a
     bracket search near the start says whether a sign change exists at all).
-    Checked in the order (a), (b), (b'), (c), (d). (b) and (b') are not judged when your
+    Checked in the order (a), (b), (b'), (c), (d). (b), (b') and (d) are not judged when your
     derivative disagrees with the slope of f (``_detect_slope``): the flat tangents are
-    then your derivative's, and the wrong-derivative finding explains the throws.
+    then your derivative's, and the wrong-derivative finding explains the throws; and Newton
+    with a wrong slope creeps up on a root from one side at a linear rate (REFERENCES §1),
+    so iterates of one sign say nothing about a missing root.
 """
 
 from __future__ import annotations
@@ -96,7 +98,7 @@ def detect_flat(t: Trace, ctx: Context) -> Finding | None:
                     "nearly flat and sends the next iterate far away. Start elsewhere, or use " + remedy.describe()
                     + ".",
                     remedy, (k, k + 1), tag="small slope")
-    return _stationary(t, ctx, x0) or _no_sign_change(t, ctx, x0)
+    return _stationary(t, ctx, x0) or (None if wrong else _no_sign_change(t, ctx, x0))
 
 
 def _repeated_throws(t: Trace, ctx: Context, x0: float | None, idx: NDArray[np.intp], gk: NDArray[np.float64],

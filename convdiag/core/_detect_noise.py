@@ -26,6 +26,19 @@ noise-floor
     and the stalled iterates took a step smaller than the attainable accuracy (the solver
     believed in digits the noise does not allow). A rounding level that is such noise is
     reported as a noise floor, not as a limit of double precision (``_detect_probe``).
+noise floor behind a cycle or a zero slope (:func:`noise_behind`)
+    A cycle (``_detect_path``) or a stop on a zero slope (``_detect_flat``: equal values of f
+    at the last two iterates, or f' = 0) is the noise itself when Moré and Wild's estimate at
+    the best iterate has status "ok", |f| at the points involved (the cycle points, the last two
+    iterates) is within 100 × that level, and the width involved (the cycle's width, the last
+    step) is at most ``NOISE_PATH`` (4) × the attainable accuracy level/|f'| [Wilkinson's
+    condition number; "a few times", common practice, no source]. f is sampled for it only when
+    |f| at those points is at most ``PATH_DROP`` (1e-3) × the largest |f| of the run (a cycle
+    between values of f like the start's is no floor) [common practice, no source]. Then the
+    iteration has reached the root to the accuracy the noise allows and bounces about in it:
+    the noise floor is the finding, with the cycle or the flat step as its evidence, and its
+    remedy's step tolerance is at least 1.5 × that width, so that the remedy stops where the
+    run bounced.
 rounding level of f (:func:`rounding_level`)
     The largest of (i) Moré and Wild's level at the best iterate (the noise module's estimate
     eps·max(|f|, |x·f'|) when no level is found); (ii) when f is an expression that is a sum
@@ -43,6 +56,8 @@ rounding level of f (:func:`rounding_level`)
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
+from dataclasses import replace
 from typing import Any
 
 import numpy as np
@@ -53,14 +68,18 @@ from ._detect_stop import SEQ_TOL, stalled_tail, tolerance, tolerance_assumed
 from ._detect_trace import EPS, Trace, trace_converged
 from ._findings import Evidence, Finding
 
-__all__ = ["NOISE_WELL_ABOVE", "detect_noise", "noise_explains", "noise_floor_finding", "rounding_level",
-           "well_above_rounding"]
+__all__ = ["NOISE_PATH", "NOISE_WELL_ABOVE", "detect_noise", "noise_behind", "noise_explains", "noise_floor_finding",
+           "noise_instead", "rounding_level", "well_above_rounding"]
 
 NOISE_NEAR = 100.0
 #: noise this many times the double rounding of f is not rounding in double precision (module docstring)
 NOISE_WELL_ABOVE = 1e4
 #: the second sample's width 8·h2 must stay within this fraction of |f'/f''| (module docstring)
 CURVATURE_SHARE = 0.1
+#: a cycle or flat step at most this many times the attainable accuracy wide is the noise (module docstring)
+NOISE_PATH = 4.0
+#: ... and |f| there at most this fraction of the largest |f| of the run, before f is sampled (module docstring)
+PATH_DROP = 1e-3
 
 
 def _length_scale(est: Any) -> float:
@@ -183,9 +202,97 @@ def detect_noise(t: Trace, ctx: Context) -> Finding | None:
     return noise_floor_finding(t, ctx, est, x, slope, f"central difference over ±{D:.2g}", k0, spread)
 
 
+def _path_width(t: Trace, finding: Finding) -> tuple[float, list[int]] | None:
+    """(the width a cycle or a zero-slope stop spans, the indices of its iterates), or None for other findings."""
+    if finding.kind == "cycle":
+        pts = finding.value("cycle points")
+        width = finding.value("cycle width")
+        if not pts or width is None:
+            return None
+        return float(width), list(range(t.n - len(pts), t.n))
+    if finding.kind == "flat" and finding.tag == "zero slope" and t.n >= 2:
+        return float(abs(t.xs[-1] - t.xs[-2])), [t.n - 2, t.n - 1]
+    return None
+
+
+def noise_behind(t: Trace, ctx: Context, finding: Finding) -> Finding | None:
+    """The noise-floor finding when a cycle or a zero-slope stop is the noise of f (module docstring), else None."""
+    pr = ctx.prober
+    got = _path_width(t, finding)
+    if got is None or t.f is None or t.fs is None or t.n < 4:
+        return None
+    width, idx = got
+    if not (math.isfinite(width) and width > 0) or ("noise" not in ctx.cache and pr.remaining < 11):
+        return None
+    fpts = np.abs(t.fs[idx])
+    fall = np.abs(t.fs[np.isfinite(t.fs)])
+    if not (np.all(np.isfinite(fpts)) and len(fall) and float(np.max(fpts)) <= PATH_DROP * float(np.max(fall))):
+        return None  # |f| there is not far below the run's own: no floor reached, nothing worth sampling for
+    stall = stalled_tail(t)
+    k0 = stall[0] if stall is not None else idx[0]
+    spread = stall[1] if stall is not None else width
+    x = float(t.xs[t.best_index()])
+    est = _noise(t, ctx, x, spread)
+    if est is None or est.status != "ok":
+        return None
+    if not float(np.max(fpts)) <= NOISE_NEAR * est.level:
+        return None
+    known = ctx.cache.get("noise slope")
+    if known is not None and known[0] == x:  # the noise finding measured it already
+        slope, how = known[1], known[2]
+    else:
+        D = max(16 * spread, 1e-4 * max(1.0, abs(x)))
+        try:
+            slope = (pr(x + D) - pr(x - D)) / (2 * D)
+        except Exception:  # noqa: BLE001 - budget
+            return None
+        how = f"central difference over ±{D:.2g}"
+    from ._noise import attainable_accuracy
+
+    acc = attainable_accuracy(est.level, slope) if math.isfinite(slope) else math.nan
+    if not width <= NOISE_PATH * acc:
+        ctx.notes.append(f"f carries noise of about {est.level:.2g}, but the {finding.kind} ({finding.tag}) spans "
+                         f"{width:.2g}, more than {NOISE_PATH:g} × the accuracy it allows ({acc:.2g}): not the noise")
+        return None
+    what = (f"the cycle of period {finding.value('period')}" if finding.kind == "cycle"
+            else "the zero slope between the last two iterates")
+    nf = noise_floor_finding(t, ctx, est, x, slope, how, k0, spread, min_xtol=1.5 * width)
+    keep = ("period", "cycle points", "repetitions", "where")  # the rows that describe the path, not a verdict on it
+    ev: tuple[Evidence, ...] = (
+        (f"{finding.kind} ({finding.tag})", width, f"the width it spans: {width / acc:.2g} × the attainable "
+         "accuracy. " + finding.summary),
+        *((f"{finding.kind}: {lab}", v, note) for lab, v, note in finding.evidence if lab in keep),
+        ("|f| there", tuple(float(v) for v in fpts), f"within {NOISE_NEAR:g} × the noise level: as good as 0"),
+    )
+    return replace(
+        nf,
+        summary=nf.summary + f" What looks like {what} is this noise: it spans {g(width, 3)}, within "
+        f"{NOISE_PATH:g} × the accuracy the noise allows.",
+        evidence=nf.evidence + ev, iterates=tuple(sorted(set(nf.iterates) | set(idx))))
+
+
+def noise_instead(t: Trace, ctx: Context, detector: Callable[[Trace, Context], Finding | None]) -> Finding | None:
+    """The noise-floor finding when the cycle or zero-slope stop ``detector`` reports is the noise of f, else None.
+
+    The detector runs without probes (its remedy's bracket search would spend the budget the noise
+    estimate needs); the diagnosis runs it again, for real, when its finding stands.
+    """
+    from ._detect_trace import Prober
+
+    try:
+        with np.errstate(all="ignore"):
+            path = detector(t, Context(Prober(None, 0), root=ctx.root, bracket=ctx.bracket, notes=[]))
+    except Exception:  # noqa: BLE001 - the real run of the detector reports its trouble
+        return None
+    return None if path is None else noise_behind(t, ctx, path)
+
+
 def noise_floor_finding(t: Trace, ctx: Context, est: Any, x: float, slope: float, slope_how: str, k0: int,
-                        spread: float) -> Finding:
-    """The noise-floor finding: the noise in f, the accuracy in x it allows, and tolerances it can meet."""
+                        spread: float, *, min_xtol: float = 0.0) -> Finding:
+    """The noise-floor finding: the noise in f, the accuracy in x it allows, and tolerances it can meet.
+
+    ``min_xtol``: the remedy's step tolerance is at least this (the width a run bounced about in).
+    """
     from ._noise import attainable_accuracy
 
     tail = t.xs[k0:]
@@ -193,7 +300,8 @@ def noise_floor_finding(t: Trace, ctx: Context, est: Any, x: float, slope: float
     fmed = float(np.median(ftail)) if len(ftail) else math.nan
     acc = attainable_accuracy(est.level, slope) if math.isfinite(slope) else math.nan
     ctx.cache["attainable"] = acc
-    xtol = 3 * acc if math.isfinite(acc) else None
+    ctx.cache["noise slope"] = (x, slope, slope_how)
+    xtol = max(3 * acc, min_xtol) if math.isfinite(acc) else None
     remedy = _remedy_same(t, ctx, xtol=xtol, ftol=3 * est.level,
                           note="tolerances the noise allows: 3 × the attainable accuracy in x, 3 × the noise in f")
     ev: list[Evidence] = [
@@ -221,7 +329,7 @@ def noise_floor_finding(t: Trace, ctx: Context, est: Any, x: float, slope: float
         f"f carries computational noise of about {est.level:.2g} ({est.above_rounding:.3g} times rounding), so the "
         f"iterates can only wander within about {g(acc, 3)} of the root; they stalled there." + assumed,
         tuple(ev),
-        f"Ask for no more than the noise allows: xtol ≥ {g(3 * acc, 3)} or ftol ≥ {g(3 * est.level, 3)}; or make f "
+        f"Ask for no more than the noise allows: xtol ≥ {g(xtol, 3)} or ftol ≥ {g(3 * est.level, 3)}; or make f "
         "less noisy: tighten the tolerance of the inner solver, quadrature or series inside it, or compute the model "
         "in a higher working precision (float64 where it uses float32)"
         + (" — more digits in the solver (solve(..., digits=30)) cannot help, because f rounds in its own "

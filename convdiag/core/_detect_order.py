@@ -13,8 +13,13 @@ asymptotic window
     describes the path, not the convergence near the root, and no finding rests on it
     [common practice, no source: near a root an open method's error shrinks step by step,
     and noise or rounding, which may double it, is already kept out of the window by the
-    order estimate's rounding floor]. Bracketing methods are exempt: their midpoints'
-    errors go up and down by design.
+    order estimate's rounding floor]. Nor is it read when the contraction ratios
+    e_(k+1)/e_k inside the window differ by more than a factor ``WINDOW_SPREAD`` (4): a
+    linear rate is one ratio, repeated (at a multiple root, or with a wrong slope, it changes
+    only slowly as the iterates close in), while ratios of 0.11 and 0.72 in one window
+    (Newton on Kepler's equation at e = 0.99, M = 0.225, still wandering with shrinking steps)
+    are a path, not a rate [common practice, no source]. Bracketing methods are exempt: their
+    midpoints' errors go up and down by design.
 """
 
 from __future__ import annotations
@@ -26,10 +31,12 @@ import numpy as np
 from ._detect_path import Context
 from ._detect_trace import Trace
 
-__all__ = ["WINDOW_GROWTH", "order_estimate", "rate_order", "window_note"]
+__all__ = ["WINDOW_GROWTH", "WINDOW_SPREAD", "order_estimate", "rate_order", "window_note"]
 
 #: an error that grows by this factor from one step to the next inside the window marks a non-asymptotic window
 WINDOW_GROWTH = 2.0
+#: contraction ratios inside a linear window that differ by more than this factor are no settled rate
+WINDOW_SPREAD = 4.0
 
 
 def _reference(t: Trace, notes: list[str]) -> Any:
@@ -98,12 +105,33 @@ def _growth(t: Trace, est: Any) -> tuple[int, float] | None:
     return None
 
 
+def _ratios(t: Trace, est: Any) -> tuple[float, float] | None:
+    """(smallest, largest) contraction ratio inside a linear window when they differ by more than WINDOW_SPREAD."""
+    if est is None or est.window is None or t.brackets is not None or est.label not in ("linear", "sublinear"):
+        return None
+    lo, hi = est.window
+    e = np.asarray(est.errors, dtype=np.float64)
+    seg = e[max(lo, 0): min(hi + 2, len(e))]
+    with np.errstate(all="ignore"):
+        ratio = seg[1:] / seg[:-1]
+    ratio = ratio[np.isfinite(ratio) & (ratio > 0)]
+    if len(ratio) < 2:
+        return None
+    q_lo, q_hi = float(np.min(ratio)), float(np.max(ratio))
+    return (q_lo, q_hi) if q_hi > WINDOW_SPREAD * q_lo else None
+
+
 def window_note(t: Trace, ctx: Context) -> str:
     """Why the order estimate's rate is not read (empty when it is)."""
     est = ctx.order
     grown = _growth(t, est)
     if grown is None:
-        return ""
+        spread = _ratios(t, est)
+        if spread is None:
+            return ""
+        return (f"the order estimate's window (k = {est.window[0]}…{est.window[1]}) has contraction ratios from "
+                f"{spread[0]:.3g} to {spread[1]:.3g}: the iterates were still wandering, so its rate describes the "
+                "path, not the convergence near the root")
     k, r = grown
     return (f"the order estimate's window (k = {est.window[0]}…{est.window[1]}) reaches back to where the iterates "
             f"were still wandering (the error grew {r:.3g}-fold at k = {k}): its rate describes the path, not the "

@@ -1,4 +1,4 @@
-"""Detectors that read the rate of convergence: slow, budget.
+"""Detectors that read the rate of convergence: slow; and the count of evaluations still needed.
 
 What a linear rate says about the root (a multiple root, a wrong derivative) is in
 ``_detect_multiplicity`` (re-exported here).
@@ -15,11 +15,12 @@ slow
     converged is slow only if it used more evaluations than bisection needs on the
     same bracket, 2 + ⌈log2(width/tol)⌉ (a slow phase in a run that still beat
     bisection is not worth a change).
-budget
-    The run stopped on a budget (or a recording ended with its last step above the
-    tolerance, 1e-6·max(1, |x|) when none is given [the loosest default among common
-    solvers], while the last 3 steps still shrank).
-    Evaluations still needed: at rate ρ, ⌈log(tol/e)/log ρ⌉ steps; at order p,
+evaluations still needed (:func:`evals_needed`; the budget finding, which checks the
+count, is in ``_detect_budget``)
+    Only from a converging regime: a rate or order measured on an asymptotic window, or
+    else the last 3 steps shrinking, each contraction ratio at most ``SETTLED_RATIO`` (2)
+    times the one before (a linear rate keeps its ratio, a superlinear one lowers it)
+    [common practice, no source]. At rate ρ, ⌈log(tol/e)/log ρ⌉ steps; at order p,
     e ← C·e^p (C from the last two errors) until e ≤ tol; then + 1 step for the
     stopping test and + 1 to spare; bisection ⌈log2(width/tol)⌉ + 1. Times the
     evaluations per step. With fewer than 3 iterates, 10 steps are assumed [common
@@ -41,14 +42,24 @@ from ._detect_path import Context, g
 from ._detect_trace import Trace, _shrinking, tolerance, trace_converged
 from ._findings import Evidence, Finding, Remedy
 
-__all__ = ["RATE_TAG", "detect_budget", "detect_multiple_root", "detect_rate_derivative", "detect_slow",
-           "evals_needed"]
+__all__ = ["RATE_TAG", "detect_multiple_root", "detect_rate_derivative", "detect_slow", "evals_needed", "settled"]
 
 SLOW_RATE = 0.6
 #: residual-only sequences: converged when |f| fell by this factor (no tolerance given)
 RESIDUAL_DROP = 1e-12
 #: steps assumed when a budget stopped a run before it had 3 iterates [common practice, no source]
 GUESS_STEPS = 10
+#: the last contraction ratios of an unmeasured run may grow at most this much from one step to the next
+SETTLED_RATIO = 2.0
+
+
+def settled(t: Trace) -> bool:
+    """The last 3 steps shrank, each contraction ratio at most SETTLED_RATIO times the one before."""
+    if not _shrinking(t, 3):
+        return False
+    s = np.abs(np.diff(t.xs[-4:]))
+    q1, q2 = float(s[1] / s[0]), float(s[2] / s[1])
+    return q2 <= SETTLED_RATIO * q1
 
 
 def _run_errors(est: Any) -> tuple[float, ...]:
@@ -88,8 +99,10 @@ def evals_needed(t: Trace, est: Any) -> tuple[int | None, str]:
     x = float(t.xs[t.best_index()])
     tol, _ = tolerance(t, x)
     tol = max(tol, 2 * float(np.spacing(abs(x))) if x else tol)
-    if not measured and not _shrinking(t, 2):
-        return None, "no rate or order measured, and the steps are not shrinking"
+    if not measured and not (_shrinking(t, 2) if t.brackets is not None else settled(t)):
+        s = np.abs(np.diff(t.xs[-4:]))
+        return None, ("no rate or order measured, and the last steps (" + ", ".join(f"{v:.3g}" for v in s)
+                      + ") have not settled into convergence")
     d = (est.evals_per_step if measured else None) or t.evals_per_step or 1.0
     if t.brackets and t.method == "bisection":
         lo, hi = t.brackets[-1][:2]
@@ -196,48 +209,6 @@ def detect_slow(t: Trace, ctx: Context) -> Finding | None:
         "Use a superlinear method that keeps the bracket (illinois, or hybrid). Remedy: " + remedy.describe() + ".",
         remedy, tuple(range(est.window[0], min(est.window[1] + 2, t.n))) if est.window else (),
         tag=f"rate {est.rate:.3g}")
-
-
-def detect_budget(t: Trace, ctx: Context) -> Finding | None:
-    budget_stop = t.stop_reason in ("max-evals", "max-time", "max-steps")
-    if t.kind == "run" and not (budget_stop and _improving(t)):
-        return None
-    if t.kind != "run" and (trace_converged(t) or not (_shrinking(t) if t.n else _falling(t))):
-        return None
-    if t.n == 0 and t.fs is None:
-        return None
-    est = rate_order(t, ctx) if t.n >= 3 or t.n == 0 else None
-    need, how = evals_needed(t, est)
-    if need is None:
-        return None
-    entries = max(t.n, len(t.fs) if t.fs is not None else 0)
-    used = t.total_evals or (int(t.evals[-1]) if t.evals is not None and len(t.evals) else entries)
-    if t.n:
-        tol, tol_how = tolerance(t, float(t.xs[t.best_index()]))
-    else:
-        tol = t.ftol or RESIDUAL_DROP * abs(float(t.fs[0])) if t.fs is not None else math.nan
-        tol_how = "residual tolerance" + ("" if t.ftol else f" (assumed: |f| down by {RESIDUAL_DROP:g})")
-    ev: list[Evidence] = [("evaluations used", used, f"stop: {t.stop_reason}" if t.stop_reason else "")]
-    if est is not None:
-        ev.append(("convergence", est.label_text, f"observed order {est.value:.3g}" if math.isfinite(est.value)
-                   else ""))
-    ev.append(("tolerance", tol, tol_how))
-    ev.append(("evaluations still needed", need, how))
-    if t.seconds_per_eval:
-        ev.append(("time still needed", need * t.seconds_per_eval, "seconds, at the mean time per evaluation"))
-    remedy = _remedy_same(t, ctx, max_evals=used + need, note="the same run with a budget that covers the estimate")
-    if t.brackets is not None and t.method is not None:
-        remedy = Remedy(t.method, bracket=remedy.bracket, max_evals=used + need, note=remedy.note)
-    what = "The budget ran out after" if t.kind == "run" else "The iteration stopped after"
-    return Finding(
-        "budget",
-        f"{what} {used} evaluations while the iterates were still converging"
-        f"{f' ({est.label_text})' if est is not None and est.converged_estimate else ''}; "
-        f"about {need} more evaluations reach the tolerance.",
-        tuple(ev),
-        f"Raise the evaluation budget to about {used + need} (max_evals, maxiter or maxfev). Remedy: "
-        + remedy.describe() + ".",
-        remedy, (t.n - 1,) if t.n else (), tag=f"{need} more")
 
 
 def _improving(t: Trace) -> bool:

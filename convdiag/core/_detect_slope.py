@@ -2,19 +2,35 @@
 
 Rules and thresholds (basis in brackets):
 
+slope of f
+    A ladder of central differences d_k = (f(x + h_k) − f(x − h_k))/(2h_k), h_k = h_0/10^k,
+    h_0 = eps^(1/3)·max(1, |x|) (the usual central difference step), k = 0 … 6, each rung
+    extrapolated, R_k = d_k + (d_k − d_(k−1))/99 (Richardson's extrapolation of an error
+    ∝ h²). An estimate is accepted only when it is *stable across the steps*: the
+    difference e_k between consecutive rungs (|d_1 − d_0| for R_1, |R_k − R_(k−1)| after)
+    is at most 1e-5·|R_k| (or 10 × the rounding bound eps·(|f(x+h)| + |f(x−h)|)/(2h) of
+    the rung, for a slope near 0) and no larger than the rung before (the estimates are
+    still closing in, not growing apart). A step relative to |x| alone can be huge (18 at
+    x ≈ 3e6) next to the scale on which f varies (sin E varies on a scale of 1): such rungs
+    average f's variation away and disagree with the smaller ones, so they are never
+    accepted [common practice, no source: Ridders' and Richardson's tableaux accept an
+    entry when neighbouring entries agree]. The ladder stops early when the rounding
+    bound exceeds 1e-4·|d_k| (smaller steps only add rounding) or when e_k grew 5-fold
+    twice in a row (rounding or noise in f, ∝ 1/h). When f takes complex input (real
+    runs), the complex step Im f(x + ih)/h, h = 1e-20 (exact to rounding for analytic f;
+    Squire and Trefethen, SIAM Rev. 40 (1998), from memory) is used when it agrees with a
+    rung (d_k or R_k) to 1e-4 relative plus that rung's rounding bound: that check keeps
+    code that is not complex-analytic (abs, a real part) from passing a wrong slope.
+    No stable estimate and no checked complex step: the point is not compared (a note
+    says so); the derivative is never called wrong on estimates that disagree with
+    each other.
 wrong-derivative
     Your f' is compared at up to 3 iterates (the first, a middle one, the best) with
-    the slope of f: the complex step Im f(x + ih)/h, h = 1e-20 (exact to rounding for
-    analytic f; Squire and Trefethen, SIAM Rev. 40 (1998), from memory), accepted when
-    it agrees with a central difference to 1e-4; otherwise Richardson's extrapolation
-    of central differences at h and 2h, h = eps^(1/3)·max(1, |x|) (the usual central
-    difference step) shrunk ten-fold (at most 4 times) until the two agree to 1e-6, or
-    until their difference grows like 1/h (rounding or noise). A point disagrees when
-    |g − D| > max(1e-3·max(|g|, |D|), 10·(error estimate of D)) [Newton with a slope
-    off by a relative δ converges with rate δ (REFERENCES §1): below 1e-3 that still
-    gains 3 digits a step; the error estimate is the difference of the two central
-    differences, a standard bound]. Flag when two points disagree, or one by more than
-    10 % (noise in f can push a single difference estimate past the first bar).
+    the slope of f. A point disagrees when |g − D| > max(1e-3·max(|g|, |D|), 10·(error
+    estimate of D)) [Newton with a slope off by a relative δ converges with rate δ
+    (REFERENCES §1): below 1e-3 that still gains 3 digits a step]. Flag when two points
+    disagree, or one by more than 10 % (noise in f can push a single difference
+    estimate past the first bar).
 """
 
 from __future__ import annotations
@@ -32,52 +48,69 @@ from ._findings import Evidence, Finding, Remedy
 __all__ = ["check_derivative"]
 
 CSTEP = 1e-20
-SLOPE_SHRINKS = 4
+#: rungs of the difference ladder (h_0 … h_0/10^6) and how they must agree (module docstring)
+LADDER_RUNGS = 7
+LADDER_STABLE = 1e-5
+LADDER_ROUNDING = 1e-4
+LADDER_GROWTH = 5.0
+CS_AGREE = 1e-4
 DERIV_REL = 1e-3
 DERIV_ONE = 0.1
 
 
-def _slope(t: Trace, ctx: Context, x: float) -> tuple[float, float, str]:
-    """f'(x), an error estimate and how: complex step when valid, else Richardson-extrapolated differences.
-
-    The difference step starts at eps^(1/3)·max(1, |x|) and shrinks ten-fold (4 times at most) while the
-    differences at h and 2h disagree by more than 1e-6 relative (f varies on a shorter scale than |x|),
-    unless their disagreement grew five-fold or more at the last shrink (rounding or noise, ∝ 1/h).
-    """
+def _complex_step(t: Trace, ctx: Context, x: float) -> float:
+    """Im f(x + ih)/h, h = 1e-20, or NaN when f does not take complex input (one probe)."""
     pr = ctx.prober
-    s = max(1.0, abs(x))
-    h = EPS ** (1 / 3) * s
+    if t.arithmetic != "real" or t.f is None or pr.remaining < 1:
+        return math.nan
+    pr.spend(1)
+    try:
+        with np.errstate(all="ignore"):
+            return float(complex(t.f(complex(x, CSTEP))).imag / CSTEP)
+    except Exception:  # noqa: BLE001 - not complex-analytic code
+        return math.nan
+
+
+def _slope(t: Trace, ctx: Context, x: float) -> tuple[float, float, str]:
+    """f'(x), an error estimate and how; NaN when no estimate is stable across the steps (module docstring)."""
+    pr = ctx.prober
     if pr.remaining < 4 or t.f is None:
         return math.nan, math.nan, "no budget"
-    d1 = (pr(x + h) - pr(x - h)) / (2 * h)
-    cs = math.nan
-    if t.arithmetic == "real" and pr.remaining >= 1:
-        pr.spend(1)
-        try:
-            with np.errstate(all="ignore"):
-                cs = complex(t.f(complex(x, CSTEP))).imag / CSTEP
-        except Exception:  # noqa: BLE001 - not complex-analytic code
-            cs = math.nan
-    if math.isfinite(cs) and abs(cs - d1) <= 1e-4 * max(abs(cs), abs(d1)) + 1e-10:
-        return cs, 4 * EPS * abs(cs), "complex step (checked against a central difference)"
-    best = (d1, math.inf, "central difference")
-    last = math.inf
-    for shrink in range(SLOPE_SHRINKS + 1):
-        if shrink:
-            h /= 10
-            if pr.remaining < 4:
-                break
-            d1 = (pr(x + h) - pr(x - h)) / (2 * h)
-        elif pr.remaining < 2:
+    cs = _complex_step(t, ctx, x)
+    h = EPS ** (1 / 3) * max(1.0, abs(x))
+    ds: list[float] = []
+    rs: list[float] = []
+    errs: list[float] = []
+    grew = 0
+    for _ in range(LADDER_RUNGS):
+        if pr.remaining < 2:
             break
-        d2 = (pr(x + 2 * h) - pr(x - 2 * h)) / (4 * h)
-        est = ((4 * d1 - d2) / 3, abs(d1 - d2) / 3, f"central differences at h = {h:.2g} and 2h, extrapolated")
-        if est[1] < best[1]:
-            best = est
-        if est[1] <= 1e-6 * abs(est[0]) or est[1] >= 5 * last:
-            break  # accurate; or the error grew like 1/h: rounding or noise in f limits it, not its curvature
-        last = est[1]
-    return best
+        xp, xm = x + h, x - h
+        fp, fm = pr(xp), pr(xm)
+        d = (fp - fm) / (xp - xm)
+        rnd = EPS * (abs(fp) + abs(fm)) / (xp - xm)
+        if not math.isfinite(d):
+            break
+        r = d if not ds else d + (d - ds[-1]) / 99
+        if math.isfinite(cs) and any(abs(cs - v) <= CS_AGREE * max(abs(cs), abs(v)) + 2 * rnd for v in (d, r)):
+            return cs, 4 * EPS * abs(cs), f"complex step (checked against a central difference at h = {h:.2g})"
+        if ds:
+            e = abs(d - ds[-1]) if len(ds) == 1 else abs(r - rs[-1])
+            closing = not errs or e <= errs[-1]
+            if e <= max(LADDER_STABLE * abs(r), 10 * rnd) and closing:
+                return r, max(e, rnd), (f"central differences at h = {h * 10:.2g} and {h:.2g}, extrapolated (stable across "
+                              f"{len(ds) + 1} steps)")
+            grew = grew + 1 if errs and e >= LADDER_GROWTH * errs[-1] else 0
+            errs.append(e)
+            if grew >= 2:
+                break  # the estimates grow apart like 1/h: rounding or noise in f, or f varies on a scale below h
+        ds.append(d)
+        rs.append(r)
+        if rnd > LADDER_ROUNDING * abs(d):
+            break  # smaller steps only add rounding
+        h /= 10
+    spread = (max(rs) - min(rs)) if rs else math.nan
+    return math.nan, spread, f"no estimate stable across {len(ds)} steps from h = {EPS ** (1 / 3) * max(1.0, abs(x)):.2g}"
 
 
 def check_derivative(t: Trace, ctx: Context) -> Finding | None:
@@ -101,7 +134,10 @@ def check_derivative(t: Trace, ctx: Context) -> Finding | None:
             d, err, how = _slope(t, ctx, x)
         except Exception:  # noqa: BLE001 - budget ran out in the middle
             break
-        if math.isfinite(d) and math.isfinite(gv):
+        if not math.isfinite(d):
+            ctx.notes.append(f"the slope of f at x = {g(x, 8)} was not compared with your derivative: {how} "
+                             "(f varies on a scale shorter than the steps, or is noisy)")
+        elif math.isfinite(gv):
             rows.append((x, gv, d, err if math.isfinite(err) else 0.0, how))
     if not rows:
         return None

@@ -30,7 +30,7 @@ unattainable-tolerance   the tolerance is below what doubles allow     ``_detect
 slow                     linear, slower than bisection per evaluation  ``_detect_rate``,
                          or an exponential-like crawl: equal steps     ``_detect_crawl``
                          while |f| falls by a constant factor
-budget                   the budget ran out while still converging     ``_detect_rate``
+budget                   the budget ran out while still converging     ``_detect_budget``
 =======================  ============================================  =====================
 
 The input is read by ``_detect_trace`` (runs, recordings, sequences; the
@@ -42,7 +42,10 @@ expected the root in, when f changes sign across it, before any searched one).
 **Precedence of the verdict.** The verdict is the first kind in ``PRECEDENCE``
 among the findings. The order puts first what makes the result wrong or
 absent (the iterates escaped, f could not be evaluated, the "root" is a pole,
-the iteration cycles or hit a flat spot), then what explains slow or limited
+the iteration cycles or hit a flat spot — unless the cycle or the zero slope is no wider than
+a few times the accuracy the noise of f allows: then it is the noise, and the noise floor is
+the verdict, with the cycle or flat step as its evidence, ``_detect_noise.noise_behind``),
+then what explains slow or limited
 convergence from the most specific cause to the most generic (a wrong
 derivative explains a linear rate better than anything else; a multiple root
 explains a linear rate; noise explains a stall at a level; an unattainable
@@ -271,13 +274,15 @@ def diagnose(
     """
     import numpy as np
 
+    from ._detect_budget import detect_budget, unexplained_stop
     from ._detect_crawl import detect_crawl
     from ._detect_done import detect_converged
     from ._detect_flat import detect_flat
+    from ._detect_noise import noise_instead
     from ._detect_order import order_estimate
     from ._detect_path import Context, detect_cycle, detect_divergence, detect_domain_error
     from ._detect_probe import detect_flat_zero, detect_noise, detect_pole, detect_unattainable
-    from ._detect_rate import detect_budget, detect_multiple_root, detect_rate_derivative, detect_slow
+    from ._detect_rate import detect_multiple_root, detect_rate_derivative, detect_slow
     from ._detect_slope import check_derivative
     from ._detect_stop import tolerance_assumed
     from ._detect_trace import Prober, build_trace, trace_converged
@@ -308,19 +313,32 @@ def diagnose(
             found.append(res)
         return res
 
+    def at_noise(detector: Callable[[Any, Any], Finding | None]) -> bool:
+        """The detector's cycle or zero-slope stop is the noise of f: the noise floor takes its place."""
+        if escaped is not None or pole is not None:
+            return False
+
+        def noise_instead_of_path(t_: Any, ctx_: Any) -> Finding | None:
+            return noise_instead(t_, ctx_, detector)
+
+        nf = run(noise_instead_of_path)
+        if nf is not None:
+            found[:] = [x for x in found if x.kind != "noise-floor" or x is nf]
+        return nf is not None
+
     done = trace_converged(t)
     run(check_derivative)
     escaped = run(detect_divergence)
     failed = run(detect_domain_error)
     pole = run(detect_pole)
-    cyc = run(detect_cycle)
+    cyc = None if at_noise(detect_cycle) else run(detect_cycle)
     broken = escaped is not None or pole is not None or cyc is not None or (failed is not None and not done)
-    if not broken:
+    if not broken and not any(x.kind == "noise-floor" for x in found):
         run(detect_noise)
     crawl = run(detect_crawl) if not broken else None
     ctx.cache["crawl"] = crawl
     if escaped is None:
-        flat = run(detect_flat) or run(detect_flat_zero)
+        flat = None if at_noise(detect_flat) else (run(detect_flat) or run(detect_flat_zero))
         stops = ("stationary point", "zero slope", "no sign change") + (() if done else ("repeated throws",))
         broken = broken or (flat is not None and flat.tag in stops)
     if broken:
@@ -337,7 +355,7 @@ def diagnose(
             run(detect_budget)  # a tolerance out of reach is not reached by more evaluations
     conv = run(detect_converged) if escaped is None and pole is None else None
     if not found:
-        found.append(_unexplained(t))
+        found.append(unexplained_stop(t))
     converged = conv is not None and trace_converged(t)
     verdict = _verdict(found, converged, overrides=("noise-floor",) if tolerance_assumed(t) else ())
     ordered = sorted(found, key=lambda x: (x.kind != verdict, PRECEDENCE.index(x.kind)))
@@ -378,19 +396,3 @@ def _verdict(found: list[Finding], converged: bool, overrides: tuple[str, ...] =
                 continue
             return kind
     return "converged" if converged else found[0].kind
-
-
-def _unexplained(t: Any) -> Finding:
-    """No detector fired on a run that did not converge: say so, as a budget finding."""
-    stop = t.stop_reason or "the end of the sequence"
-    return Finding(
-        "budget",
-        f"The solver stopped ({stop}) without converging, and none of the known patterns (cycle, divergence, "
-        "flat-tangent throws, multiple root, noise or rounding floor, pole, flat spot, exponential-like crawl) "
-        "shows in its iterates.",
-        (("iterates", t.n, ""), ("stop", stop, "")),
-        "Look at the iterates and f near them; try a bracketing method (hybrid) on a bracket from "
-        "convdiag.find_brackets.",
-        Remedy("hybrid", near=float(t.xs[0]) if t.n else 0.0, note="a bracket searched near the start"),
-        (), tag="no pattern",
-    )

@@ -156,3 +156,61 @@ def test_a_short_stall_of_a_solver_that_gave_up_counts_as_stalled():
     assert t.n - k0 == 4 and spread < 1e-7 and np.all(np.abs(t.fs[k0 + 1:]) <= 2.0**-21)
     d = diagnose(rf)
     assert d.verdict == "noise-floor" and "No tolerance was given" in d.primary.summary
+
+
+# -- a cycle or a zero slope at the noise floor is the noise ---------------------------------------------------------
+# Colebrook–White (shared/REFERENCES.md, Colebrook 1939) at Re = 1e5, ε/D = 1e-4, computed in float32 (a legacy
+# single-precision model): f ≈ 0.0185138660775 (REFERENCES table; scipy.optimize.brentq on the float64 residual
+# agrees, checked below). Single precision rounds the residual's terms (about 7) to about 4e-7, so with |f'| ≈ 220
+# no method resolves the root better than about 2e-9 (noise/|f'|, Wilkinson, from memory).
+
+
+def _colebrook32(f):
+    import numpy as np
+
+    re, rough, f32 = np.float32(1e5), np.float32(1e-4), np.float32(f)
+    return float(np.float32(1) / np.sqrt(f32) + np.float32(2) * np.log10(
+        rough / np.float32(3.7) + np.float32(2.51) / (re * np.sqrt(f32))))
+
+
+def _colebrook64(f):
+    return 1 / math.sqrt(f) + 2 * math.log10(1e-4 / 3.7 + 2.51 / (1e5 * math.sqrt(f)))
+
+
+def _colebrook_root():
+    from scipy.optimize import brentq
+
+    root = brentq(_colebrook64, 0.008, 0.1, xtol=1e-15)
+    assert root == pytest.approx(0.0185138660775, abs=1e-12)  # shared/REFERENCES.md, Colebrook table
+    return root
+
+
+@pytest.mark.parametrize("method, start, looked_like", [("newton", 0.02, "cycle"), ("secant", (0.02, 0.021), "flat")])
+def test_a_cycle_or_a_zero_slope_within_the_noise_of_a_float32_model_is_a_noise_floor(method, start, looked_like):
+    root = _colebrook_root()
+    run = solve(_colebrook32, method, start=start, xtol=1e-12, rtol=0, max_evals=40)
+    assert not run.converged and abs(run.root - root) < 1e-8  # at the root, to what single precision allows
+    d = diagnose(run)
+    assert d.verdict == "noise-floor" and looked_like not in d.kinds
+    nf = d.primary
+    acc = nf.value("attainable accuracy in x")
+    assert 3e-10 < acc < 1e-8  # float32 rounding of terms of size ~7 (eps32 = 1.19e-7, numpy.finfo) over |f'| ≈ 220
+    assert any(label.startswith(f"{looked_like} (") for label, _, _ in nf.evidence)  # the path is the evidence
+    # the remedy asks for what the noise allows, and it works: it converges to the float64 root within that accuracy
+    assert nf.remedy.xtol >= 3 * acc
+    cured = nf.remedy.solve(_colebrook32)
+    assert cured.converged and abs(cured.root - root) <= nf.remedy.xtol
+
+
+def test_a_cycle_far_from_the_noise_floor_of_a_noisy_f_is_still_a_cycle():
+    # Newton on x³ − 2x + 2 from 0 cycles between 0 and 1 (a textbook example; the iteration map sends 0 → 1 → 0
+    # exactly: 0 − 2/(−2) = 1, 1 − 1/1 = 0). Computed in float32, f is noisy near its root −1.7693 (numpy.roots), but
+    # on the cycle |f| is 1 and 2, far above that noise: the cycle, not the noise, is the verdict
+    import numpy as np
+
+    def f32(x):
+        x32 = np.float32(x)
+        return float(x32 * x32 * x32 - np.float32(2) * x32 + np.float32(2))
+
+    d = diagnose(solve(f32, "newton", start=0.0, fprime=lambda x: 3 * x * x - 2, max_evals=20))
+    assert d.verdict == "cycle" and "noise-floor" not in d.kinds and d.primary.value("period") == 2

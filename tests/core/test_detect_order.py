@@ -61,3 +61,16 @@ def test_every_converged_run_on_the_order_tests_smooth_problems_is_converged_wit
         assert d.kinds == ("converged",) and d.primary.tag == "", (name, d, d.kinds, d.notes)
         checked += 1
     assert checked >= 20, checked
+
+
+def test_a_window_of_unequal_contraction_ratios_is_no_rate():
+    # e = 0.99, M = 0.225 from E0 = M, 20 evaluations: the last steps shrink (errors 399, 165, 17.5, 11.7, 8.4 by
+    # successive differences) but by ratios from 0.11 to 0.72: still wandering. Newton with the exact derivative
+    # (1 − e·cos E, sympy.diff) is quadratic at this simple root (REFERENCES §1), so a "linear rate" there would be a
+    # false wrong-derivative alarm.
+    run = solve(kepler_residual, "newton", start=0.225, fprime=kepler_prime, params={"M": 0.225, "ecc": 0.99},
+                max_evals=20, xtol=1e-12, rtol=0)
+    assert not run.converged
+    d = diagnose(run, probe=False)
+    assert "wrong-derivative" not in d.kinds and "multiple-root" not in d.kinds and "slow" not in d.kinds
+    assert any("contraction ratios from" in n for n in d.notes)
