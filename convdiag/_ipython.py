@@ -165,11 +165,26 @@ def _register_formatters(ipython: Any) -> None:
     formatters["text/plain"].for_type(Session, session_text)
 
 
+def _use_widget_progress(ipython: Any) -> None:
+    """In a notebook kernel, sweeps show their progress as a widget bar (the text bar elsewhere)."""
+    if getattr(ipython, "kernel", None) is None:  # a terminal IPython: widgets would not render
+        return
+    try:
+        import ipywidgets  # noqa: F401
+    except ImportError:
+        return
+    from .core._sweep import set_progress_factory
+    from .widgets._progress import WidgetProgressBar
+
+    set_progress_factory(WidgetProgressBar)
+
+
 def load_ipython_extension(ipython: Any) -> None:
     """Register the display forms and the ``%iterscope`` magic (called by ``%load_ext convdiag``)."""
     from IPython.core.error import UsageError
 
     _register_formatters(ipython)
+    _use_widget_progress(ipython)
 
     def iterscope(line: str) -> Any:
         """Open the convdiag explorer: %iterscope NAME_OR_EXPRESSION [--method M] [--start X] ...

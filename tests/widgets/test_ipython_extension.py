@@ -93,3 +93,50 @@ def test_order_estimates_bracket_searches_and_diagnoses_render_as_html(shell):
     for result in results:
         data, _ = shell.display_formatter.format(result)
         assert "text/html" in data and "<" in data["text/html"], type(result).__name__
+
+
+def test_after_load_ext_a_sweep_shows_a_widget_bar_that_ends_with_every_point(shell):
+    # the sweep is Kepler's equation at e = 0.5 from E0 = pi over 3,000 mean anomalies (converges everywhere,
+    # Danby 1988, from memory); what is checked is the bar: it counts the points and ends as complete
+    import numpy as np
+
+    import convdiag
+    from convdiag.core import _sweep
+    from convdiag.report._sweep_text import TextProgressBar
+    from convdiag.widgets._progress import WidgetProgressBar
+
+    made = []
+
+    def factory(total):
+        made.append(WidgetProgressBar(total, delay=0.0, show=False))
+        return made[-1]
+
+    from convdiag._ipython import _use_widget_progress
+
+    class Kernel:  # %load_ext in a notebook: the shell has a kernel
+        kernel = object()
+
+    try:
+        _sweep.set_progress_factory(TextProgressBar)
+        _use_widget_progress(shell)  # a terminal shell (no kernel): the text bar stays
+        assert _sweep._PROGRESS == [TextProgressBar]
+        _use_widget_progress(Kernel())
+        assert _sweep._PROGRESS == [WidgetProgressBar]
+        _sweep.set_progress_factory(factory)
+        res = convdiag.sweep(lambda E, M: E - 0.5 * np.sin(E) - M, {"M": np.linspace(0.01, 3.1, 3000)},
+                             start=np.pi, chunk_size=500, progress=True)
+    finally:
+        _sweep.set_progress_factory(TextProgressBar)
+    assert res.counts() == {"converged": 3000}
+    (bar,) = made
+    assert bar.bar.value == bar.bar.max == 3000 and bar.bar.bar_style == "success"
+    assert bar.label.value.startswith("3,000 of 3,000 points")
+
+
+def test_a_bar_stopped_early_says_the_finished_points_are_kept():
+    from convdiag.widgets._progress import WidgetProgressBar
+
+    bar = WidgetProgressBar(1000, delay=0.0, show=False)
+    bar.update(400, 1000)
+    bar.close()
+    assert bar.bar.bar_style == "warning" and "finished points are in the result" in bar.label.value
