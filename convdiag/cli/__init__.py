@@ -39,9 +39,16 @@ def build_parser() -> argparse.ArgumentParser:
     return p
 
 
+def _guard_expressions(argv: Sequence[str]) -> list[str]:
+    """Expression text that starts with '-' ('-sin(x) - 1') would be read by argparse as an option: give it a
+    leading space (the expression reader ignores it). Only text no option can look like is touched: it holds
+    one of ( ) * / + ^ or a space."""
+    return [f" {a}" if a.startswith("-") and any(c in a for c in "()*/+^ ") else a for a in argv]
+
+
 def main(argv: Sequence[str] | None = None) -> int:
     parser = build_parser()
-    args = parser.parse_args(argv)
+    args = parser.parse_args(_guard_expressions(sys.argv[1:] if argv is None else argv))
     if args.command is None:
         parser.print_help()
         return 2

@@ -43,6 +43,7 @@ def function_arg(text: str, *, allow_file: bool = False) -> Any:
     importing the user's own Python file (text may come from a shared file; it must never run code). With
     ``allow_file`` (the command was given ``--file``), a derivative may name a function in a file too.
     """
+    text = text.strip()  # main() guards text starting with '-' from argparse with a leading space
     head, sep, _ = text.rpartition(":")
     if sep and head.endswith(".py"):
         if allow_file:

@@ -189,3 +189,11 @@ def test_report_into_a_folder_that_cannot_be_written_exits_2_after_printing_the_
     code, out, err = run_cli(capsys, "run", "x**2 - 2", "--start", "1", "--report", str(blocker / "sub"))
     assert code == 2 and "converged" in out  # the run's output is not lost
     assert err.startswith("convdiag: error:") and "a-file" in err
+
+
+def test_expressions_that_start_with_a_minus_sign_are_read_as_expressions_not_options(capsys):
+    # -x**3 + 2x + 5 = 0 is Wallis's cubic with the sign flipped: root 2.0945514815423265 (mpmath.findroot)
+    code, out, _ = run_cli(capsys, "run", "-x**3 + 2*x + 5", "--start", "2", "--fprime", "-3*x**2 + 2", "--json")
+    d = json.loads(out)
+    assert code == 0 and d["root"] == pytest.approx(2.0945514815423265, rel=1e-15)
+    assert d["derivative_source"] == "user"
