@@ -37,8 +37,11 @@ Window rules (:func:`~convdiag.core._window._analyse`):
 3. Linear: the longest run of steady single-step rates at the end (log-ratios
    within 15 % + 0.01 of their median), at least 4 of them; the rate is the
    median of the later half. With at least 8 usable errors whose single-step
-   values scatter: if |log(e_(k+1)/e_k)| grows steadily by ≥ 1.15 per step
-   (Illinois-type cycles) the order is that growth; otherwise the rate is the
+   values scatter: if the order over blocks of p = 2, 3 or 4 steps,
+   ((L_(k+p) − L_k)/(L_k − L_(k−p)))^(1/p) with L = log e, settles at ≥ 1.2
+   (Illinois-type methods repeat a 3-step pattern) that is the order; else if
+   |log(e_(k+1)/e_k)| grows steadily by ≥ 1.15 per step the order is that
+   growth; otherwise the rate is the
    slope of a robust straight-line fit (Theil–Sen) of log e_k against k over
    the last two thirds (bisection), unless the trend is steeper than a factor
    10 per step (then too few points to tell). "Sublinear" when the rate is

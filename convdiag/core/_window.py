@@ -144,7 +144,7 @@ def _analyse_inner(L: NDArray[np.float64], log_floor: NDArray[np.float64], min_p
         half = n // 2
         c1, c2 = float(np.median(rates[:half])), float(np.median(rates[half:]))
     elif end - start >= 8:
-        if _growth(L, start, end, a):
+        if _blocks(L, start, end, min_points, a) or _growth(L, start, end, a):
             return a
         first = end - max(4, (2 * (end - start)) // 3)
         y = L[first:end]
@@ -187,6 +187,39 @@ def _analyse_inner(L: NDArray[np.float64], log_floor: NDArray[np.float64], min_p
     a.label = "sublinear" if sub or a.rate >= 1.0 else "linear"
     a.drop = float(drop)
     return a
+
+
+def _blocks(L: NDArray[np.float64], start: int, end: int, min_points: int, a: _Analysis) -> bool:
+    """Superlinear in blocks of p = 2, 3 or 4 steps (Illinois-type methods repeat a pattern of p steps).
+
+    The block order Q_k = ((L_(k+p) − L_k) / (L_k − L_(k−p)))^(1/p), the single-step order's formula applied to
+    p-step log-decrements, per step; accepted for the smallest p whose last values settle (the single-step
+    rule's tolerance, at least max(min_points, 3) of them) at 1.2 or more.
+    """
+    for p in (2, 3, 4):
+        ks = list(range(start + p, end - p))
+        if len(ks) < max(min_points, 3):
+            break
+        qs = []
+        with np.errstate(all="ignore"):
+            for k in ks:
+                num, den = L[k + p] - L[k], L[k] - L[k - p]
+                qs.append(float((num / den) ** (1 / p)) if num < 0 and den < 0 else math.nan)
+
+        def tol(med: float) -> float:
+            return max(0.1, 0.05 * abs(med))
+
+        n = _settled(qs, tol)
+        if n >= max(min_points, 3) and float(np.median(qs[-n:])) >= 1.2:
+            win = np.asarray(qs[-n:])
+            a.value, a.spread = float(np.median(win[n // 2:])), float((win.max() - win.min()) / 2)
+            a.window, a.points = (ks[-n] - p, ks[-1] + p - 1), n
+            a.label = "quadratic" if abs(a.value - 2) <= 0.1 else "cubic" if abs(a.value - 3) <= 0.15 else "superlinear"
+            a.centre = f"median of the last {n - n // 2} of {n} settled {p}-step block orders, per step"
+            a.notes.append(f"single-step orders do not settle (the method repeats a pattern of {p} steps, as "
+                           f"Illinois-type methods do); the order is measured over blocks of {p} steps")
+            return True
+    return False
 
 
 def _growth(L: NDArray[np.float64], start: int, end: int, a: _Analysis) -> bool:

@@ -90,3 +90,25 @@ def test_a_slow_drift_to_infinity_is_not_called_convergence():
 def test_a_nan_in_a_log_only_cuts_off_what_comes_before_it():
     est = estimate_order([1.0, float("nan"), 0.5, 0.25, 0.125, 0.0625, 0.03125], root=0.0)
     assert est.label == "linear" and est.rate == pytest.approx(0.5) and "entry k = 1 is not a finite" in est.notes[0]
+
+
+@pytest.mark.parametrize(("text", "bracket"), [
+    ("x - 0.99*sin(x) - 0.1", (0.0, 2.0)),  # Kepler's equation at e = 0.99, M = 0.1
+    ("x**3 - 2*x - 5", (2.0, 3.0)),  # Wallis's cubic
+    ("cos(x) - x", (0.0, 1.0)),
+])
+def test_the_illinois_method_is_measured_over_its_three_step_pattern(text, bracket):
+    # The Illinois method repeats a pattern of three steps whose errors multiply to e^3 per cycle: order
+    # 3^(1/3) = 1.442 per step (Dowell & Jarratt, BIT 11 (1971) 168-174, from memory); single-step orders
+    # cycle and never settle, so the estimate must come from 3-step blocks
+    est = estimate_order(solve(text, "illinois", bracket=bracket))
+    assert est.label == "superlinear" and est.value == pytest.approx(3 ** (1 / 3), abs=0.03)
+    assert "3-step block" in est.centre
+
+
+@pytest.mark.parametrize("method", ["bisection", "regula-falsi"])
+def test_linear_methods_are_not_mistaken_for_a_block_pattern(method):
+    # bisection halves the bracket (rate 1/2, any numerical analysis text); regula falsi keeps one end and
+    # converges linearly (Burden & Faires, from memory): neither may be labelled superlinear
+    est = estimate_order(solve("x**3 - 2*x - 5", method, bracket=(2.0, 3.0)))
+    assert est.label == "linear"
