@@ -30,6 +30,7 @@ count, is in ``_detect_budget``)
 from __future__ import annotations
 
 import math
+import re
 from typing import Any
 
 import numpy as np
@@ -122,13 +123,18 @@ def evals_needed(t: Trace, est: Any) -> tuple[int | None, str]:
         how = f"rate {rate:.3g} from the error {e:.3g} down to {tol:.3g}"
     else:
         p = est.value if measured and math.isfinite(est.value) and est.value > 1 else (t.nominal_order or 2.0)
-        c = errs[-1] / errs[-2] ** p if errs[-2] > 0 else 1.0
+        # an order measured over blocks of b steps (Illinois-type patterns) extrapolates block by block:
+        # e_(k+b) = c·e_k^(p^b), with c from the errors b steps apart
+        found = re.search(r"(\d+)-step block", est.centre) if measured else None
+        b = int(found.group(1)) if found and len(errs) > int(found.group(1)) else 1
+        pb = p**b
+        c = errs[-1] / errs[-1 - b] ** pb if errs[-1 - b] > 0 else 1.0
         c = min(max(c, 1e-300), 1e300)
         steps, ee = 0, e
         while ee > tol and steps < 200:
-            nxt = c * ee**p
+            nxt = c * ee**pb
             ee = nxt if nxt < ee else ee / 2
-            steps += 1
+            steps += b
         how = f"order {p:.3g}{'' if measured else ' (the method’s nominal order: too few points to measure)'} " \
               f"from the error {e:.3g} down to {tol:.3g}"
     if t.brackets:  # the width closes a step behind the error when one end lags
