@@ -1,4 +1,4 @@
-"""Two classic test sets for bracketing root finders, transcribed from the papers.
+"""Two classic test sets for bracketing root finders, coded from the papers.
 
 * ``APS``: the 15 problems (154 instances) of Alefeld, Potra and Shi, "Algorithm 748:
   Enclosing zeros of continuous functions", ACM Trans. Math. Softw. 21(3) (1995) 327-344,
@@ -9,7 +9,7 @@
 
 Every function takes ``m=math`` (float arithmetic) or ``m=mpmath`` (arbitrary precision,
 used for independent reference roots). Scalars only; the benchmark vectorises where a peer
-calls with arrays. The transcription is checked against scipy's private copy
+calls with arrays. Our copy of the problems is checked against scipy's private copy
 (``scipy.optimize._tstutils``) in ``tests/core/test_hybrid.py``.
 """
 

@@ -1,7 +1,7 @@
 """Function evaluations of convdiag's ``hybrid`` against scipy's bracketing solvers.
 
 Suites: the Alefeld–Potra–Shi set (ACM TOMS 21(3) 1995, 15 problems, 154 instances) and the
-Chandrupatla set (Adv. Eng. Softw. 28(3) 1997, 9 functions x 5 brackets), transcribed in
+Chandrupatla set (Adv. Eng. Softw. 28(3) 1997, 9 functions x 5 brackets), coded in
 ``bench/_aps.py``. Tolerances: tight (xtol 1e-15, rtol 4·eps, the setting of the published
 anchor below; scipy's own tests use xtol = rtol = 4·eps) and loose (xtol 1e-8, rtol 4·eps).
 Every solver gets the same xtol and rtol; ``find_root`` keeps its default ``fatol`` (the
@@ -168,7 +168,7 @@ def anchor() -> dict[str, Any]:
             for i, d in zip(_aps.APS, T._APS_TESTS_DICTS)
         )
     ours = {name: sum(run_peer(name, i, xtol, rtol)["evals"] for i in _aps.APS) for name in ANCHOR}
-    return {"published": ANCHOR, "scipy_functions": theirs, "our_transcription": ours, "reproduced": theirs == ANCHOR}
+    return {"published": ANCHOR, "scipy_functions": theirs, "our_copy": ours, "reproduced": theirs == ANCHOR}
 
 
 def targets(table: dict[str, Any], per: dict[str, dict[str, list[int]]]) -> list[dict[str, Any]]:
@@ -219,8 +219,8 @@ def show(res: dict[str, Any]) -> str:
         + ("reproduced" if a["reproduced"] else "NOT reproduced")
     )
     lines.append(
-        "  with bench/_aps.py's transcription (last-bit rounding differs from scipy's copy): "
-        + ", ".join(f"{k} {v}" for k, v in a["our_transcription"].items())
+        "  with bench/_aps.py's own copy of the problems (last-bit rounding differs from scipy's copy): "
+        + ", ".join(f"{k} {v}" for k, v in a["our_copy"].items())
     )
     for t in res["targets"]:
         v = t["value"]

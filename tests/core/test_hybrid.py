@@ -1,4 +1,4 @@
-"""The hybrid bracketing method: test-set transcription, roots, the worst-case bound, order, models, reasons.
+"""The hybrid bracketing method: our copy of the test sets, roots, the worst-case bound, order, models, reasons.
 
 Sources: Alefeld, Potra and Shi, ACM TOMS 21(3) (1995), Table I and Chandrupatla, Adv. Eng. Softw.
 28(3) (1997), Table 1, through scipy's copy (``scipy.optimize._tstutils``); scipy's ``brentq`` and
@@ -47,8 +47,8 @@ def bisection_evaluations(f, bracket, **kw):
     return solve(f, "bisection", bracket=bracket, max_evals=5000, **kw).evaluations
 
 
-# -- the transcription of the test sets --------------------------------------------------------
-def test_aps_transcription_matches_scipys_copy():
+# -- our copy of the test sets --------------------------------------------------------
+def test_our_aps_problems_match_scipys_copy():
     from scipy.optimize import _tstutils as T  # scipy's copy of Alefeld-Potra-Shi (1995), Table I
 
     ours, theirs = SETS.APS, T._APS_TESTS_DICTS
@@ -67,12 +67,12 @@ def test_aps_transcription_matches_scipys_copy():
         for x in np.linspace(a, b, 7):  # the mpmath form (used for 50-digit references) is the same function
             with mpmath.workdps(30):
                 high = float(inst.mp(mpmath.mpf(float(x))))
-            # a slip in the transcription would show as an O(1) difference; 1e-9 allows the double
+            # a slip in our copy would show as an O(1) difference; 1e-9 allows the double
             # form's cancellation (e.g. Chandrupatla's 9th function near 2e-4: terms of size 2.5e5)
             assert abs(high - inst(float(x))) <= 1e-9 * abs(high) + 1e-12, (inst.id, x)
 
 
-def test_chandrupatla_transcription_matches_scipys_copy():
+def test_our_chandrupatla_problems_match_scipys_copy():
     from scipy.optimize import _tstutils as T  # scipy's copy of Chandrupatla (1997), Table 1
 
     ours, theirs = SETS.CHANDRUPATLA, T._CHANDRUPATLA_TESTS_DICTS

@@ -3,7 +3,7 @@
 Theory values (shared/REFERENCES.md §1): Newton and Steffensen 2, secant (1+√5)/2, inverse quadratic
 interpolation the real root of t³ = t² + t + 1 (1.8392867552), Halley 3; at a root of multiplicity m
 Newton's rate is (m−1)/m, Halley's (m−1)/(m+1), the secant's the root of t^m + t^(m−1) = 1.
-Test problems: the Alefeld–Potra–Shi set (ACM TOMS Algorithm 748, 1995), transcribed from scipy's copy
+Test problems: the Alefeld–Potra–Shi set (ACM TOMS Algorithm 748, 1995), coded after scipy's copy
 (``scipy.optimize._tstutils._APS_TESTS_DICTS``), plus Kepler's equation (REFERENCES §5).
 """
 
@@ -70,7 +70,7 @@ def problems(share=0.25):
     return out
 
 
-def test_the_aps_transcription_matches_scipys_functions():
+def test_our_aps_problems_match_scipys_functions():
     for pid in APS_IDS:
         d = APS[pid]
         from convdiag import as_problem
