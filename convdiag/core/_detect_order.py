@@ -87,34 +87,36 @@ def order_estimate(t: Trace, root: float | None, probe: bool, notes: list[str]) 
         return None
 
 
-def _growth(t: Trace, est: Any) -> tuple[int, float] | None:
-    """(k, e_(k+1)/e_k) of the largest error growth ≥ WINDOW_GROWTH inside a linear window, else None."""
+def _window_ratios(t: Trace, est: Any) -> tuple[int, Any] | None:
+    """(first k, e_(k+1)/e_k over a linear window of an open method's estimate), else None."""
     if est is None or est.window is None or t.brackets is not None or est.label not in ("linear", "sublinear"):
         return None
     lo, hi = est.window
     e = np.asarray(est.errors, dtype=np.float64)
     seg = e[max(lo, 0): min(hi + 2, len(e))]
-    if len(seg) < 2:
-        return None
     with np.errstate(all="ignore"):
-        ratio = seg[1:] / seg[:-1]
+        return max(lo, 0), seg[1:] / seg[:-1]
+
+
+def _growth(t: Trace, est: Any) -> tuple[int, float] | None:
+    """(k, e_(k+1)/e_k) of the largest error growth ≥ WINDOW_GROWTH inside a linear window, else None."""
+    got = _window_ratios(t, est)
+    if got is None or len(got[1]) < 1:
+        return None
+    first, ratio = got
     ratio = np.where(np.isfinite(ratio), ratio, 0.0)
     k = int(np.argmax(ratio))
     if ratio[k] >= WINDOW_GROWTH:
-        return max(lo, 0) + k, float(ratio[k])
+        return first + k, float(ratio[k])
     return None
 
 
 def _ratios(t: Trace, est: Any) -> tuple[float, float] | None:
     """(smallest, largest) contraction ratio inside a linear window when they differ by more than WINDOW_SPREAD."""
-    if est is None or est.window is None or t.brackets is not None or est.label not in ("linear", "sublinear"):
+    got = _window_ratios(t, est)
+    if got is None:
         return None
-    lo, hi = est.window
-    e = np.asarray(est.errors, dtype=np.float64)
-    seg = e[max(lo, 0): min(hi + 2, len(e))]
-    with np.errstate(all="ignore"):
-        ratio = seg[1:] / seg[:-1]
-    ratio = ratio[np.isfinite(ratio) & (ratio > 0)]
+    ratio = got[1][np.isfinite(got[1]) & (got[1] > 0)]
     if len(ratio) < 2:
         return None
     q_lo, q_hi = float(np.min(ratio)), float(np.max(ratio))

@@ -11,6 +11,8 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
+from ..core._run import _float as _fl
+
 __all__ = ["COLOURS", "FloatArray", "parabola_turn", "sample_curve", "sideways_parabola"]
 
 FloatArray = NDArray[np.float64]
@@ -33,16 +35,6 @@ def _fixed_labels(ax: Any, xlabel: str, size: float) -> None:
 
 
 # -- f sampled for its curve -------------------------------------------------------------------------
-def _fl(v: Any) -> float:
-    try:
-        return float(v)
-    except (TypeError, ValueError, OverflowError):
-        try:
-            return float(complex(v).real)
-        except (TypeError, ValueError, OverflowError):
-            return math.nan
-
-
 def _one(f: Callable[[Any], Any], x: float) -> float:
     try:
         with np.errstate(all="ignore"):

@@ -26,12 +26,12 @@ from typing import Any
 
 import numpy as np
 
+from ..core._run import _float as _fl
 from ._figure_style import (
     _EMPTY,
     COLOURS,
     FloatArray,
     _fixed_labels,
-    _fl,
     parabola_turn,
     sample_curve,
     sideways_parabola,

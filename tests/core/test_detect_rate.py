@@ -8,6 +8,7 @@ tests/core/test_order.py uses, and Kepler's equation (shared/REFERENCES.md §5).
 import math
 
 import pytest
+from aps_problems import aps_text
 
 from convdiag import METHODS, solve
 from convdiag.core._diagnose import diagnose
@@ -15,24 +16,6 @@ from convdiag.core._order import estimate_order
 
 T = pytest.importorskip("scipy.optimize._tstutils")
 APS = {d["ID"]: d for d in T._APS_TESTS_DICTS}
-
-
-def aps_text(d):
-    """The APS function as expression text (Alefeld, Potra & Shi 1995, Table I, via scipy's copy)."""
-    a = d["args"]
-    return {
-        "aps.01": lambda: "sin(x) - x/2",
-        "aps.03": lambda: f"{a[0]}*x*exp({a[1]}*x)",
-        "aps.04": lambda: f"x**{a[0]} - {a[1]}",
-        "aps.05": lambda: "sin(x) - 1/2",
-        "aps.06": lambda: f"2*x*exp(-{a[0]}) - 2*exp(-{a[0]}*x) + 1",
-        "aps.07": lambda: f"(1 + (1 - {a[0]})**2)*x - (1 - {a[0]}*x)**2",
-        "aps.08": lambda: f"x**2 - (1 - x)**{a[0]}",
-        "aps.09": lambda: f"(1 + (1 - {a[0]})**4)*x - (1 - {a[0]}*x)**4",
-        "aps.10": lambda: f"exp(-{a[0]}*x)*(x - 1) + x**{a[0]}",
-        "aps.11": lambda: f"({a[0]}*x - 1)/(({a[0]} - 1)*x)",
-        "aps.12": lambda: f"x**(1/{a[0]}) - {a[0]}**(1/{a[0]})",
-    }[d["ID"][:6]]()
 
 
 IDS = ["aps.01.00", "aps.03.00", "aps.04.00", "aps.04.05", "aps.04.13", "aps.05.00", "aps.06.00", "aps.06.03",

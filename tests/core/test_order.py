@@ -11,6 +11,7 @@ import math
 
 import numpy as np
 import pytest
+from aps_problems import aps_text
 from hypothesis import example, given, settings
 from hypothesis import strategies as st
 
@@ -22,25 +23,6 @@ T = pytest.importorskip("scipy.optimize._tstutils")
 GOLDEN = (1 + 5**0.5) / 2
 TRIBONACCI = 1.8392867552141612  # real root of t^3 = t^2 + t + 1 (REFERENCES §1; numpy.roots gives the same)
 THEORY = {"newton": 2.0, "steffensen": 2.0, "secant": GOLDEN, "iqi": TRIBONACCI, "halley": 3.0}
-
-
-def aps_text(d):
-    """The APS function as expression text (Alefeld, Potra & Shi 1995, Table I, via scipy's copy)."""
-    a = d["args"]
-    text = {
-        "aps.01": lambda: "sin(x) - x/2",
-        "aps.03": lambda: f"{a[0]}*x*exp({a[1]}*x)",
-        "aps.04": lambda: f"x**{a[0]} - {a[1]}",
-        "aps.05": lambda: "sin(x) - 1/2",
-        "aps.06": lambda: f"2*x*exp(-{a[0]}) - 2*exp(-{a[0]}*x) + 1",
-        "aps.07": lambda: f"(1 + (1 - {a[0]})**2)*x - (1 - {a[0]}*x)**2",
-        "aps.08": lambda: f"x**2 - (1 - x)**{a[0]}",
-        "aps.09": lambda: f"(1 + (1 - {a[0]})**4)*x - (1 - {a[0]}*x)**4",
-        "aps.10": lambda: f"exp(-{a[0]}*x)*(x - 1) + x**{a[0]}",
-        "aps.11": lambda: f"({a[0]}*x - 1)/(({a[0]} - 1)*x)",
-        "aps.12": lambda: f"x**(1/{a[0]}) - {a[0]}**(1/{a[0]})",
-    }.get(d["ID"][:6])
-    return None if text is None else text()
 
 
 APS_IDS = [
