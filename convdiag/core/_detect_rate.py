@@ -30,7 +30,6 @@ count, is in ``_detect_budget``)
 from __future__ import annotations
 
 import math
-import re
 from typing import Any
 
 import numpy as np
@@ -125,8 +124,7 @@ def evals_needed(t: Trace, est: Any) -> tuple[int | None, str]:
         p = est.value if measured and math.isfinite(est.value) and est.value > 1 else (t.nominal_order or 2.0)
         # an order measured over blocks of b steps (Illinois-type patterns) extrapolates block by block:
         # e_(k+b) = c·e_k^(p^b), with c from the errors b steps apart
-        found = re.search(r"(\d+)-step block", est.centre) if measured else None
-        b = int(found.group(1)) if found and len(errs) > int(found.group(1)) else 1
+        b = est.block if measured and len(errs) > est.block else 1
         pb = p**b
         c = errs[-1] / errs[-1 - b] ** pb if errs[-1 - b] > 0 else 1.0
         c = min(max(c, 1e-300), 1e300)

@@ -160,7 +160,7 @@ def _measure(
         value=a.value, spread=a.spread, window=a.window, points=a.points, label=a.label,
         reference=ref.label, reference_note=ref.note, root=root, rate=a.rate, rate_spread=a.rate_spread,
         multiplicity=m, multiplicity_note="; ".join(mnotes), evals_per_step=d, method=method, nominal_order=nominal,
-        centre=a.centre, errors=errs, log_errors=tuple(float(v) for v in L), orders=tuple(float(v) for v in a.orders),
+        centre=a.centre, block=a.block, errors=errs, log_errors=tuple(float(v) for v in L), orders=tuple(float(v) for v in a.orders),
         evals=None if evals is None or len(evals) != len(L) else tuple(int(v) for v in evals),
         floor=floor, floor_note=floor_note, digits=digits, basis=basis, notes=(*notes, *a.notes), source=source,
         **est,

@@ -103,6 +103,7 @@ class OrderEstimate(Showable):
         nominal order^(1/nominal evaluations per step) (Ostrowski's efficiency index)
     method, nominal_order : the method, when known, and its theoretical order
     centre : how the window was summarised
+    block : steps per block the order was measured over (1: single steps; 3 for Illinois-type patterns)
     errors, log_errors : e_k (float; may underflow to 0) and log10 e_k as measured
     orders : single-step orders q_k aligned with ``errors`` (NaN where undefined)
     evals : cumulative evaluations at each entry, when known
@@ -136,6 +137,7 @@ class OrderEstimate(Showable):
     method: str | None = None
     nominal_order: float | None = None
     centre: str = ""
+    block: int = 1
     errors: tuple[float, ...] = ()
     log_errors: tuple[float, ...] = ()
     orders: tuple[float, ...] = ()
@@ -296,6 +298,7 @@ def order_json(estimate: OrderEstimate) -> dict[str, Any]:
             "label": e.label,
             "label_text": e.label_text,
             "reference": e.reference,
+            "block": e.block,
         },
         "rate": num(e.rate),
         "multiplicity": e.multiplicity,

@@ -31,6 +31,7 @@ class _Analysis:
     orders: NDArray[np.float64] = field(default_factory=lambda: np.zeros(0))
     notes: list[str] = field(default_factory=list)
     drop: float = math.nan  # factor by which the errors fell over a linear window
+    block: int = 1  # steps per block the order was measured over (_blocks)
 
 
 def _theil_sen(y: NDArray[np.float64]) -> float:
@@ -216,6 +217,7 @@ def _blocks(L: NDArray[np.float64], start: int, end: int, min_points: int, a: _A
             a.window, a.points = (ks[-n] - p, ks[-1] + p - 1), n
             a.label = "quadratic" if abs(a.value - 2) <= 0.1 else "cubic" if abs(a.value - 3) <= 0.15 else "superlinear"
             a.centre = f"median of the last {n - n // 2} of {n} settled {p}-step block orders, per step"
+            a.block = p
             a.notes.append(f"single-step orders do not settle (the method repeats a pattern of {p} steps, as "
                            f"Illinois-type methods do); the order is measured over blocks of {p} steps")
             return True
