@@ -279,7 +279,7 @@ def order_json(estimate: OrderEstimate) -> dict[str, Any]:
     >>> est = estimate_order([1.0, 0.5, 0.25, 0.125, 0.0625, 0.03125], root=0.0)
     >>> d = order_json(est)
     >>> sorted(d["order"]), round(d["rate"], 3)
-    (['label', 'label_text', 'points', 'reference', 'spread', 'value', 'window'], 0.5)
+    (['block', 'label', 'label_text', 'points', 'reference', 'spread', 'value', 'window'], 0.5)
     """
 
     def num(v: Any) -> Any:
